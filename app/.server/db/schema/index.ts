@@ -1,0 +1,4 @@
+// One import for the whole schema: `import * as schema from "~/.server/db/schema"`.
+export * from "./auth";
+export * from "./audit";
+export * from "./customers";

@@ -1,0 +1,42 @@
+// Seed the demo scenario once: only when the database has no organisation yet.
+import { sql } from "drizzle-orm";
+import { closeDb, getDb } from "~/.server/db/client";
+import { organisation } from "~/.server/db/schema";
+import { addMember, assignSite, createCustomer, createOrganisation, createSite, createUser } from "../tests/factories";
+import { DEMO_ORGANISATIONS, DEMO_PASSWORD } from "./seed/demo-data";
+
+export async function seedDemo(): Promise<boolean> {
+  const db = getDb();
+  const [existing] = await db.select({ n: sql<number>`count(*)::int` }).from(organisation);
+  if ((existing?.n ?? 0) > 0) return false;
+  await db.transaction(async (tx) => {
+    for (const demo of DEMO_ORGANISATIONS) {
+      const org = await createOrganisation(tx, { name: demo.name, slug: demo.slug });
+      const members = new Map<string, string>();
+      for (const person of demo.people) {
+        const created = await createUser(tx, { email: person.email, name: person.name, password: DEMO_PASSWORD });
+        const membership = await addMember(tx, { organisationId: org.id, userId: created.id, role: person.role });
+        members.set(person.email, membership.id);
+      }
+      const sitesByCustomer = new Map<string, string[]>();
+      for (const c of demo.customers) {
+        const created = await createCustomer(tx, { organisationId: org.id, name: c.name });
+        const ids: string[] = [];
+        for (const s of c.sites) ids.push((await createSite(tx, { organisationId: org.id, customerId: created.id, ...s })).id);
+        sitesByCustomer.set(c.name, ids);
+      }
+      for (const assignment of demo.siteManagers) {
+        for (const siteId of sitesByCustomer.get(assignment.customer) ?? []) {
+          await assignSite(tx, { organisationId: org.id, memberId: members.get(assignment.email)!, siteId });
+        }
+      }
+    }
+  });
+  return true;
+}
+
+if (import.meta.url === `file://${process.argv[1]}`) {
+  const seeded = await seedDemo();
+  console.log(seeded ? "Demo data seeded." : "Database already has data; demo seed skipped.");
+  await closeDb();
+}
