@@ -102,14 +102,14 @@ export default function Team({ loaderData, actionData }: Route.ComponentProps) {
             <h2 id="members-heading" className="font-semibold">Members</h2>
             <span className="text-xs text-ink-faint tabular">{members.length} {members.length === 1 ? "person" : "people"}</span>
           </div>
-          <div className="mt-3 overflow-x-auto rounded-xl border border-rule bg-white">
-            <table className="w-full min-w-[36rem] text-sm">
+          <div className="mt-3 overflow-hidden rounded-xl border border-rule bg-white">
+            <table className="w-full text-sm">
               <thead className="sticky top-0 bg-paper text-left text-xs uppercase tracking-wide text-ink-faint">
                 <tr>
                   <th className="px-4 py-2 font-medium">Name</th>
-                  <th className="px-4 py-2 font-medium">E-mail</th>
+                  <th className="hidden px-4 py-2 font-medium sm:table-cell">E-mail</th>
                   <th className="px-4 py-2 font-medium">Role</th>
-                  <th className="px-4 py-2 text-right font-medium">Joined</th>
+                  <th className="hidden px-4 py-2 text-right font-medium md:table-cell">Joined</th>
                   {manage ? <th className="px-4 py-2 text-right font-medium"><span className="sr-only">Actions</span></th> : null}
                 </tr>
               </thead>
@@ -118,11 +118,15 @@ export default function Team({ loaderData, actionData }: Route.ComponentProps) {
                   const editable = manage && m.id !== me.memberId && isRole(m.role) && canAssignRole(me.role, m.role, m.role);
                   return (
                     <tr key={m.id}>
-                      <td className="px-4 py-2.5 font-medium">{m.name}{m.id === me.memberId ? <span className="ml-1.5 text-xs font-normal text-ink-faint">(you)</span> : null}</td>
-                      <td className="px-4 py-2.5 text-ink-soft">{m.email}</td>
+                      <td className="px-4 py-2.5">
+                        <span className="font-medium">{m.name}</span>
+                        {m.id === me.memberId ? <span className="ml-1.5 text-xs text-ink-faint">(you)</span> : null}
+                        <span className="block truncate text-xs text-ink-faint sm:hidden">{m.email}</span>
+                      </td>
+                      <td className="hidden px-4 py-2.5 text-ink-soft sm:table-cell">{m.email}</td>
                       <td className="px-4 py-2.5">
                         {editable ? (
-                          <Form method="post" className="flex items-center gap-2">
+                          <Form method="post" className="flex flex-wrap items-center gap-2">
                             <input type="hidden" name="intent" value="change-role" />
                             <input type="hidden" name="memberId" value={m.id} />
                             <label className="sr-only" htmlFor={`role-${m.id}`}>Role of {m.name}</label>
@@ -137,7 +141,7 @@ export default function Team({ loaderData, actionData }: Route.ComponentProps) {
                           <span>{isRole(m.role) ? ROLE_LABELS[m.role] : m.role}</span>
                         )}
                       </td>
-                      <td className="px-4 py-2.5 text-right text-ink-soft tabular">{dateFormat.format(new Date(m.joinedAt))}</td>
+                      <td className="hidden px-4 py-2.5 text-right text-ink-soft tabular md:table-cell">{dateFormat.format(new Date(m.joinedAt))}</td>
                       {manage ? (
                         <td className="px-4 py-2.5 text-right">
                           {m.id !== me.memberId && isRole(m.role) && canRemoveMember(me.role, m.role) ? (
