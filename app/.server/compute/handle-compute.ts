@@ -1,0 +1,45 @@
+// One request path for every /api/v1/compute/* route: authenticate, read, validate, compute.
+import type { z } from "zod";
+import { getSessionUser } from "~/.server/auth/guards";
+import { apiError, invalidRequest, readJson } from "~/.server/http/api";
+import { ControlInputError } from "~/lib/control";
+
+export const COMPUTE_JSON_LIMIT = 16 * 1024 * 1024;
+
+/** Any signed-in user may compute; nothing here belongs to an organisation. */
+export async function requireComputeCaller(request: Request): Promise<Response | null> {
+  const user = await getSessionUser(request);
+  if (!user) return apiError(401, "unauthenticated", "Sign in, or send an API token, to use the compute API.");
+  return null;
+}
+
+export function computeFailure(error: unknown): Response {
+  if (error instanceof ControlInputError) {
+    return apiError(400, "invalid_input", `${error.field}: ${error.message.replace(/^[^:]*:\s*/, "")}`, [{ path: error.field.split("."), message: error.message }]);
+  }
+  const message = error instanceof Error ? error.message : String(error);
+  return apiError(422, "computation_failed", `The computation could not be completed: ${message}`);
+}
+
+export function answerWith<S extends z.ZodType>(schema: S, value: unknown, answer: (request: z.infer<S>) => unknown): Response {
+  const parsed = schema.safeParse(value);
+  if (!parsed.success) return invalidRequest(parsed.error);
+  try {
+    return Response.json(answer(parsed.data));
+  } catch (error) {
+    return computeFailure(error);
+  }
+}
+
+export async function handleCompute<S extends z.ZodType>(request: Request, schema: S, answer: (request: z.infer<S>) => unknown): Promise<Response> {
+  if (request.method !== "POST") return apiError(405, "method_not_allowed", "Use POST.", undefined, { allow: "POST" });
+  const refused = await requireComputeCaller(request);
+  if (refused) return refused;
+  const body = await readJson(request, COMPUTE_JSON_LIMIT);
+  if (!body.ok) return body.response;
+  return answerWith(schema, body.value, answer);
+}
+
+export function methodNotAllowed(): Response {
+  return apiError(405, "method_not_allowed", "Use POST.", undefined, { allow: "POST" });
+}

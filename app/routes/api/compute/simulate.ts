@@ -1,0 +1,12 @@
+import { handleCompute, methodNotAllowed } from "~/.server/compute/handle-compute";
+import { answerSimulate } from "~/lib/compute/run";
+import { SimulateRequestSchema } from "~/lib/compute/schemas";
+import type { Route } from "./+types/simulate";
+
+export function loader() {
+  return methodNotAllowed();
+}
+
+export async function action({ request }: Route.ActionArgs) {
+  return handleCompute(request, SimulateRequestSchema, answerSimulate);
+}

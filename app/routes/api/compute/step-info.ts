@@ -1,0 +1,12 @@
+import { handleCompute, methodNotAllowed } from "~/.server/compute/handle-compute";
+import { answerStepInfo } from "~/lib/compute/run";
+import { StepInfoRequestSchema } from "~/lib/compute/schemas";
+import type { Route } from "./+types/step-info";
+
+export function loader() {
+  return methodNotAllowed();
+}
+
+export async function action({ request }: Route.ActionArgs) {
+  return handleCompute(request, StepInfoRequestSchema, answerStepInfo);
+}
