@@ -22,8 +22,10 @@ ensure_auth_secret
 echo "Starting PostgreSQL on 127.0.0.1:$PGPORT_FLYBALL…"
 pg_ensure_running "$DATA_DIR" "$PGPORT_FLYBALL" on
 
+STOPPING=""
 shutdown() {
   trap - INT TERM EXIT
+  STOPPING=1
   echo
   echo "Stopping Flyball…"
   stop_children
@@ -35,7 +37,8 @@ trap shutdown INT TERM EXIT
 npx tsx scripts/migrate.ts
 npx tsx scripts/seed.ts
 echo "Building the app…"
-npx react-router build >/dev/null
+mkdir -p data
+npx react-router build >data/build.log 2>&1 || { cat data/build.log >&2; exit 1; }
 
 start_child mail node_modules/.bin/tsx fakes/resend/server.ts
 start_child app node_modules/.bin/react-router-serve build/server/index.js
@@ -63,4 +66,7 @@ cat <<TEXT
 TEXT
 
 wait -n "${CHILD_PIDS[@]}" || true
-echo "A Flyball process exited; shutting down." >&2
+if [[ -z "$STOPPING" ]]; then
+  echo "A Flyball process exited; shutting down." >&2
+  shutdown
+fi
