@@ -4,9 +4,8 @@ import { organization } from "better-auth/plugins";
 import { getDb } from "~/.server/db/client";
 import * as schema from "~/.server/db/schema";
 import { sendEmail } from "~/.server/email/send-email";
-import { invitationEmail, passwordResetEmail, verificationEmail } from "~/.server/email/templates";
+import { passwordResetEmail, verificationEmail } from "~/.server/email/templates";
 import { env } from "~/.server/env";
-import { ROLE_LABELS, isRole } from "~/lib/access/capabilities";
 import { ac, roles } from "./roles";
 
 export const MIN_PASSWORD_LENGTH = 10;
@@ -58,11 +57,7 @@ function createAuth() {
         allowUserToCreateOrganization: true,
         invitationExpiresIn: 60 * 60 * 24 * 7,
         cancelPendingInvitationsOnReInvite: true,
-        sendInvitationEmail: async ({ id, email, role, organization: org, inviter }) => {
-          const url = `${settings.BETTER_AUTH_URL}/invitations/${id}`;
-          const label = isRole(role) ? ROLE_LABELS[role] : role;
-          await sendEmail({ to: email, ...invitationEmail(inviter.user.name, org.name, label, url) });
-        },
+        // Invitation e-mails are sent by ~/.server/members/team.ts, which reports delivery failures.
       }),
     ],
   });
