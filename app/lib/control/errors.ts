@@ -1,0 +1,32 @@
+/**
+ * The one error type the control engine throws for bad input. `field` names the offending
+ * input (a dotted path such as `plant.timeConstant`) so a form can put the message beside it.
+ */
+export class ControlInputError extends Error {
+  readonly field: string;
+
+  constructor(field: string, message: string) {
+    super(`${field}: ${message}`);
+    this.name = "ControlInputError";
+    this.field = field;
+  }
+}
+
+export function requireFinite(field: string, value: number): number {
+  if (typeof value !== "number" || !Number.isFinite(value)) {
+    throw new ControlInputError(field, "must be a finite number");
+  }
+  return value;
+}
+
+export function requirePositive(field: string, value: number): number {
+  requireFinite(field, value);
+  if (value <= 0) throw new ControlInputError(field, "must be greater than zero");
+  return value;
+}
+
+export function requireNonNegative(field: string, value: number): number {
+  requireFinite(field, value);
+  if (value < 0) throw new ControlInputError(field, "must not be negative");
+  return value;
+}
