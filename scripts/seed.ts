@@ -2,8 +2,9 @@
 import { sql } from "drizzle-orm";
 import { closeDb, getDb } from "~/.server/db/client";
 import { organisation } from "~/.server/db/schema";
-import { addMember, assignSite, createCustomer, createOrganisation, createSite, createUser } from "../tests/factories";
-import { DEMO_ORGANISATIONS, DEMO_PASSWORD } from "./seed/demo-data";
+import { createSigningKey } from "~/.server/device-auth/signing-keys";
+import { addMember, assignSite, createCustomer, createMachine, createMachineModel, createOrganisation, createSite, createUser } from "../tests/factories";
+import { DEMO_FLEETS, DEMO_ORGANISATIONS, DEMO_PASSWORD } from "./seed/demo-data";
 
 export async function seedDemo(): Promise<boolean> {
   const db = getDb();
@@ -19,11 +20,33 @@ export async function seedDemo(): Promise<boolean> {
         members.set(person.email, membership.id);
       }
       const sitesByCustomer = new Map<string, string[]>();
+      const siteIdsByName = new Map<string, string>();
       for (const c of demo.customers) {
         const created = await createCustomer(tx, { organisationId: org.id, name: c.name });
         const ids: string[] = [];
-        for (const s of c.sites) ids.push((await createSite(tx, { organisationId: org.id, customerId: created.id, ...s })).id);
+        for (const s of c.sites) {
+          const createdSite = await createSite(tx, { organisationId: org.id, customerId: created.id, ...s });
+          ids.push(createdSite.id);
+          siteIdsByName.set(s.name, createdSite.id);
+        }
         sitesByCustomer.set(c.name, ids);
+      }
+      await createSigningKey(tx, { organisationId: org.id });
+      const fleet = DEMO_FLEETS[demo.slug];
+      if (fleet) {
+        const model = await createMachineModel(tx, { organisationId: org.id, ...fleet.model });
+        let n = 0;
+        for (const group of fleet.machines) {
+          for (let i = 0; i < group.count; i++, n++) {
+            await createMachine(tx, {
+              organisationId: org.id,
+              modelId: model.id,
+              siteId: siteIdsByName.get(group.site)!,
+              serial: `${fleet.serialPrefix}${String(1001 + n * 7).padStart(4, "0")}`,
+              firmware: fleet.firmware[n % fleet.firmware.length],
+            });
+          }
+        }
       }
       for (const assignment of demo.siteManagers) {
         for (const siteId of sitesByCustomer.get(assignment.customer) ?? []) {

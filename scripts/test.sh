@@ -24,6 +24,9 @@ if [[ "${1:-}" == "--vitest" ]]; then ONLY_VITEST=1; shift; fi
 
 ensure_node_modules || exit 1
 
+echo "Type-checking…"
+node_modules/.bin/react-router typegen >/dev/null 2>&1 && node_modules/.bin/tsc || { echo "Type errors: fix them first (npm run typecheck)." >&2; exit 1; }
+
 if [[ ! -x /usr/bin/chromium ]]; then
   if [[ "$(id -u)" -eq 0 ]] && command -v apt-get >/dev/null; then
     echo "Installing Debian's Chromium for the end-to-end tests…"
@@ -72,7 +75,9 @@ let passed = 0, failed = 0, skipped = 0;
 const v = `${dir}/vitest.json`;
 if (existsSync(v)) {
   const r = JSON.parse(readFileSync(v, "utf8"));
-  passed += r.numPassedTests; failed += r.numFailedTests + (r.numFailedTestSuites ?? 0) - 0; skipped += r.numPendingTests + (r.numTodoTests ?? 0);
+  passed += r.numPassedTests; failed += r.numFailedTests; skipped += r.numPendingTests + (r.numTodoTests ?? 0);
+  // A test file that fails to load has no failed test of its own: count it once.
+  failed += r.testResults.filter((f) => f.status === "failed" && !f.assertionResults.some((a) => a.status === "failed")).length;
 } else failed += 1;
 const p = `${dir}/playwright.json`;
 if (existsSync(p)) {

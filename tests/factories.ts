@@ -2,7 +2,9 @@
 // (no e-mail, no HTTP) and returns what it created.
 import { hashPassword } from "better-auth/crypto";
 import type { Db } from "~/.server/db/client";
-import { account, customer, member, organisation, site, siteAssignment, user } from "~/.server/db/schema";
+import { account, customer, loopTemplate, machineModel, member, organisation, site, siteAssignment, user } from "~/.server/db/schema";
+import type { GainEnvelope, HealthThresholds, StoredGains } from "~/.server/db/schema";
+import { registerMachine } from "~/.server/fleet/machines";
 import type { Role } from "~/lib/access/capabilities";
 
 let counter = 0;
@@ -62,4 +64,96 @@ export async function createTeam(db: Db, roles: Role[] = ["owner"]) {
     people.push({ ...person, role, memberId: membership.id });
   }
   return { organisation: org, people };
+}
+
+// ---- Fleet: machine models, loop templates, machines ------------------------------------
+
+export type LoopTemplateSpec = {
+  key: string;
+  name: string;
+  unit: string;
+  outputUnit?: string;
+  samplePeriodS: number;
+  outputMin: number;
+  outputMax: number;
+  defaultGains: StoredGains;
+  gainEnvelope?: GainEnvelope;
+  thresholds?: Partial<HealthThresholds>;
+};
+
+/** Defaults labelled as practice (REFERENCES.md "Loop health": no single published threshold). */
+export const DEFAULT_THRESHOLDS: HealthThresholds = {
+  acceptableAmplitude: 1,
+  ultimatePeriod: 60,
+  saturationWatch: 0.1,
+  saturationAct: 0.3,
+  clampWatch: 0.1,
+  clampAct: 0.3,
+  oscillationPerHour: 10,
+  errRmsWatch: 2,
+  silentAfter: 600,
+};
+
+export async function createMachineModel(
+  db: Db,
+  { organisationId, name, description = "", templates = [] }: { organisationId: string; name: string; description?: string; templates?: LoopTemplateSpec[] },
+) {
+  const [model] = await db.insert(machineModel).values({ organisationId, name, description }).returning();
+  const created = [];
+  for (const [position, t] of templates.entries()) created.push(await createLoopTemplate(db, { organisationId, modelId: model!.id, position, ...t }));
+  return { ...model!, templates: created };
+}
+
+export async function createLoopTemplate(db: Db, { organisationId, modelId, position = 0, ...t }: LoopTemplateSpec & { organisationId: string; modelId: string; position?: number }) {
+  const g = t.defaultGains;
+  const [row] = await db
+    .insert(loopTemplate)
+    .values({
+      organisationId,
+      modelId,
+      key: t.key,
+      name: t.name,
+      unit: t.unit,
+      outputUnit: t.outputUnit ?? "%",
+      samplePeriodS: t.samplePeriodS,
+      controllerForm: "parallel",
+      outputMin: t.outputMin,
+      outputMax: t.outputMax,
+      defaultGains: g,
+      gainEnvelope: t.gainEnvelope ?? { kp: [0, Math.max(g.kp * 5, 1)], ki: [0, Math.max(g.ki * 5, 0.1)], kd: [0, Math.max(g.kd * 5, 1)] },
+      thresholds: { ...DEFAULT_THRESHOLDS, ...t.thresholds },
+      position,
+    })
+    .returning();
+  return row!;
+}
+
+/** A registered machine with its loops and a fresh enrolment code (the code in clear text). */
+export async function createMachine(
+  db: Db,
+  { organisationId, serial = `SN-${uniqueSuffix()}`, modelId, siteId, firmware }: { organisationId: string; serial?: string; modelId: string; siteId: string; firmware?: string },
+) {
+  const result = await registerMachine(db, { organisationId, actor: "system", input: { serial, modelId, siteId, firmware } });
+  return { ...result.machine, enrolmentCode: result.enrolmentCode.code };
+}
+
+/** A small test fleet: one customer, two sites, a model with two loops, and `machines` machines per site. */
+export async function createTestFleet(db: Db, { organisationId, machinesPerSite = 1 }: { organisationId: string; machinesPerSite?: number }) {
+  const suffix = uniqueSuffix();
+  const buyer = await createCustomer(db, { organisationId, name: `Customer ${suffix}` });
+  const siteA = await createSite(db, { organisationId, customerId: buyer.id, name: `Site A ${suffix}`, timeZone: "Europe/Berlin" });
+  const siteB = await createSite(db, { organisationId, customerId: buyer.id, name: `Site B ${suffix}` });
+  const model = await createMachineModel(db, {
+    organisationId,
+    name: `Model ${suffix}`,
+    templates: [
+      { key: "temp", name: "Temperature", unit: "°C", outputUnit: "counts", samplePeriodS: 1, outputMin: 0, outputMax: 255, defaultGains: { kp: 6, ki: 0.04, kd: 0 } },
+      { key: "speed", name: "Speed", unit: "rpm", samplePeriodS: 0.1, outputMin: 0, outputMax: 100, defaultGains: { kp: 3, ki: 2, kd: 0 } },
+    ],
+  });
+  const machines = [];
+  for (const s of [siteA, siteB]) {
+    for (let i = 0; i < machinesPerSite; i++) machines.push(await createMachine(db, { organisationId, modelId: model.id, siteId: s.id, serial: `T-${suffix}-${s === siteA ? "A" : "B"}${i}` }));
+  }
+  return { customer: buyer, sites: [siteA, siteB], model, machines };
 }

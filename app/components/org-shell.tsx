@@ -10,7 +10,12 @@ type NavItem = { to: string; label: string; capability: Capability; end?: boolea
 // Pages appear here as they exist; each is hidden from roles that cannot use it.
 export const NAV_ITEMS: NavItem[] = [
   { to: "", label: "Overview", capability: "fleet:read", end: true },
+  { to: "machines", label: "Machines", capability: "fleet:read" },
+  { to: "customers", label: "Customers & sites", capability: "registry:manage" },
+  { to: "models", label: "Models & loops", capability: "registry:manage" },
+  { to: "bench", label: "Tuning bench", capability: "tuning:use" },
   { to: "team", label: "Team", capability: "team:read" },
+  { to: "developer", label: "Developer", capability: "registry:manage" },
 ];
 
 export function OrgShell({

@@ -45,3 +45,105 @@ export const DEMO_ORGANISATIONS: DemoOrganisation[] = [
     siteManagers: [],
   },
 ];
+
+// ---- The demo fleets (invented). Gains are SIMC-style PI settings for the plants the fleet
+// simulator runs (scripts/simulator/plants.ts); thresholds are practice defaults.
+import type { LoopTemplateSpec } from "../../tests/factories";
+
+export type DemoFleet = {
+  model: { name: string; description: string; templates: LoopTemplateSpec[] };
+  /** Machines per site name, serial prefix and firmware versions to spread. */
+  machines: { site: string; count: number }[];
+  serialPrefix: string;
+  firmware: string[];
+};
+
+const zone = (n: number): LoopTemplateSpec => ({
+  key: `zone_${n}`,
+  name: `Barrel zone ${n}`,
+  unit: "°C",
+  outputUnit: "counts",
+  samplePeriodS: 1,
+  outputMin: 0,
+  outputMax: 255,
+  defaultGains: { kp: 6.25, ki: 0.039, kd: 0 },
+  gainEnvelope: { kp: [0.5, 40], ki: [0, 0.5], kd: [0, 200] },
+  thresholds: { acceptableAmplitude: 1.5, ultimatePeriod: 160, oscillationPerHour: 40, saturationWatch: 0.05, saturationAct: 0.2, clampWatch: 0.05, clampAct: 0.2, errRmsWatch: 1.5 },
+});
+
+export const DEMO_FLEETS: Record<string, DemoFleet> = {
+  corvid: {
+    model: {
+      name: "Extrusion line",
+      description: "Single-screw extrusion line: four barrel heater zones, screw drive and melt pressure.",
+      templates: [
+        zone(1),
+        zone(2),
+        zone(3),
+        zone(4),
+        {
+          key: "screw_speed",
+          name: "Screw speed",
+          unit: "rpm",
+          samplePeriodS: 0.1,
+          outputMin: 0,
+          outputMax: 100,
+          defaultGains: { kp: 3.33, ki: 2.08, kd: 0 },
+          gainEnvelope: { kp: [0.1, 20], ki: [0, 20], kd: [0, 2] },
+          thresholds: { acceptableAmplitude: 1, ultimatePeriod: 1.6, oscillationPerHour: 30 },
+        },
+        {
+          key: "melt_pressure",
+          name: "Melt pressure",
+          unit: "bar",
+          samplePeriodS: 0.2,
+          outputMin: 0,
+          outputMax: 100,
+          defaultGains: { kp: 1.25, ki: 0.3125, kd: 0 },
+          gainEnvelope: { kp: [0.05, 10], ki: [0, 5], kd: [0, 5] },
+          thresholds: { acceptableAmplitude: 3, ultimatePeriod: 4, oscillationPerHour: 30 },
+        },
+      ],
+    },
+    machines: [
+      { site: "Halden North Works", count: 14 },
+      { site: "Halden Riverside", count: 12 },
+      { site: "Mirabel Valence", count: 12 },
+      { site: "Oakhurst Leeds", count: 10 },
+    ],
+    serialPrefix: "CTM-EX-",
+    firmware: ["4.2.1", "4.2.1", "4.2.0", "4.1.3"],
+  },
+  pellworth: {
+    model: {
+      name: "Pump skid",
+      description: "Booster pump skid with a variable-speed drive: flow and discharge pressure.",
+      templates: [
+        {
+          key: "flow",
+          name: "Flow",
+          unit: "m³/h",
+          samplePeriodS: 0.2,
+          outputMin: 0,
+          outputMax: 100,
+          defaultGains: { kp: 1.25, ki: 0.83, kd: 0 },
+          thresholds: { acceptableAmplitude: 0.5, ultimatePeriod: 1.5, oscillationPerHour: 30 },
+        },
+        {
+          key: "pressure",
+          name: "Discharge pressure",
+          unit: "bar",
+          samplePeriodS: 0.2,
+          outputMin: 0,
+          outputMax: 100,
+          defaultGains: { kp: 30, ki: 10, kd: 0 },
+          gainEnvelope: { kp: [1, 100], ki: [0, 50], kd: [0, 10] },
+          thresholds: { acceptableAmplitude: 0.1, ultimatePeriod: 3, oscillationPerHour: 30 },
+        },
+      ],
+    },
+    machines: [{ site: "Dunmore Intake", count: 12 }],
+    serialPrefix: "PP-SK-",
+    firmware: ["2.7.0", "2.6.4"],
+  },
+};

@@ -3,6 +3,7 @@ import { z } from "zod";
 import { getAuth } from "~/.server/auth/auth";
 import { readAuthResponse } from "~/.server/auth/call-auth";
 import { recordAudit } from "~/.server/audit/record-audit";
+import { createSigningKey } from "~/.server/device-auth/signing-keys";
 import type { Db } from "~/.server/db/client";
 import { getDb } from "~/.server/db/client";
 import { member, organisation } from "~/.server/db/schema";
@@ -46,6 +47,8 @@ export async function createOrganisation(
   );
   if (!result.ok) return { ok: false, errors: { form: [String(result.body.message ?? "The organisation could not be created.")] } };
   const organisationId = String(result.body.id);
+  // The key that signs device configurations is made with the organisation, not on first use.
+  await createSigningKey(getDb(), { organisationId });
   await recordAudit(getDb(), { organisationId, actor: userId, action: "organisation.created", targetType: "organisation", targetId: organisationId, detail: { name: input.name, slug: input.slug } });
   return { ok: true, slug: input.slug };
 }

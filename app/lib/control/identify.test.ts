@@ -91,15 +91,12 @@ describe("least-squares FOPDT fit", () => {
     expect(result.fit.rmse).toBeCloseTo(0.005, 3);
   });
 
-  it("handles 10 000 samples in well under 200 ms", () => {
+  // Its speed (target < 200 ms) is measured by `npm run bench`, not asserted here.
+  it("fits a 10 000-sample noisy step test", () => {
     const data = fopdtStepData(evenTimes(-10, 989.9, 0.1), 2, 50, 7.3, { noise: 0.01 });
     expect(data.t.length).toBe(10_000);
-    fitFopdt(data); // warm the JIT, as a long-running server would be
-    const started = performance.now();
     const result = fitFopdt(data);
-    const elapsed = performance.now() - started;
     within(result.model.timeConstant, 50, 0.01);
-    expect(elapsed).toBeLessThan(200);
   });
 });
 

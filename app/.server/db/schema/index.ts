@@ -2,3 +2,6 @@
 export * from "./auth";
 export * from "./audit";
 export * from "./customers";
+export * from "./fleet";
+export * from "./device";
+export * from "./digests";

@@ -1,0 +1,53 @@
+// Loop performance digests. The table is declaratively partitioned by month on
+// window_start (see drizzle/0001_*.sql; Drizzle cannot express partitioning, so the
+// generated CREATE TABLE is edited there). The primary key serves per-loop time ranges.
+// Idempotency on (loop, seq) across partitions is enforced by digest_seq, which is not
+// partitioned: a unique key on a partitioned table must include the partition column.
+import { doublePrecision, foreignKey, integer, pgTable, primaryKey, text, timestamp, uuid } from "drizzle-orm/pg-core";
+import { loop } from "./fleet";
+
+export const digest = pgTable(
+  "digest",
+  {
+    organisationId: text("organisation_id").notNull(),
+    loopId: uuid("loop_id").notNull(),
+    windowStart: timestamp("window_start", { withTimezone: true }).notNull(),
+    seq: integer("seq").notNull(),
+    windowEnd: timestamp("window_end", { withTimezone: true }).notNull(),
+    receivedAt: timestamp("received_at", { withTimezone: true }).notNull().defaultNow(),
+    samples: integer("samples").notNull(),
+    gainVersion: integer("gain_version").notNull(),
+    spMean: doublePrecision("sp_mean").notNull(),
+    pvMean: doublePrecision("pv_mean").notNull(),
+    errMean: doublePrecision("err_mean").notNull(),
+    errRms: doublePrecision("err_rms").notNull(),
+    errMaxAbs: doublePrecision("err_max_abs").notNull(),
+    iae: doublePrecision("iae").notNull(),
+    ise: doublePrecision("ise").notNull(),
+    uMean: doublePrecision("u_mean").notNull(),
+    uStd: doublePrecision("u_std").notNull(),
+    satHighFrac: doublePrecision("sat_high_frac").notNull(),
+    satLowFrac: doublePrecision("sat_low_frac").notNull(),
+    intClampFrac: doublePrecision("int_clamp_frac").notNull(),
+    oscCount: integer("osc_count").notNull(),
+    spChanges: integer("sp_changes").notNull(),
+  },
+  (t) => [
+    primaryKey({ name: "digest_pk", columns: [t.organisationId, t.loopId, t.windowStart, t.seq] }),
+    foreignKey({ name: "digest_loop_fk", columns: [t.organisationId, t.loopId], foreignColumns: [loop.organisationId, loop.id] }).onDelete("cascade"),
+  ],
+);
+
+/** One row per accepted (loop, seq): the claim that makes a retry a no-op. */
+export const digestSeq = pgTable(
+  "digest_seq",
+  {
+    organisationId: text("organisation_id").notNull(),
+    loopId: uuid("loop_id").notNull(),
+    seq: integer("seq").notNull(),
+  },
+  (t) => [
+    primaryKey({ name: "digest_seq_pk", columns: [t.organisationId, t.loopId, t.seq] }),
+    foreignKey({ name: "digest_seq_loop_fk", columns: [t.organisationId, t.loopId], foreignColumns: [loop.organisationId, loop.id] }).onDelete("cascade"),
+  ],
+);

@@ -1,0 +1,86 @@
+// GET /api/v1/device/config and POST /api/v1/device/config/ack. The configuration is a JWT
+// signed with the organisation's Ed25519 key: per-loop gains with a monotonic version, and an
+// expiry, so the device can refuse forged, older or stale configurations. Until releases
+// exist, a loop's gains are its template's defaults (set when the machine is registered).
+import { createHash } from "node:crypto";
+import { SignJWT } from "jose";
+import type { z } from "zod";
+import { recordAudit } from "~/.server/audit/record-audit";
+import { getDb, getPool } from "~/.server/db/client";
+import type { AckRequestSchema } from "./schemas";
+import { getSigningKey } from "./signing-keys";
+import type { DeviceContext } from "./tokens";
+
+export const CONFIG_LIFETIME_S = 24 * 3600;
+
+type LoopRow = { key: string; config_version: number; gains: { kp: number; ki: number; kd: number }; output_min: number; output_max: number; sample_period_s: number; slug: string };
+
+const LOOPS_SQL = `
+select l.key, l.config_version, l.gains, t.output_min, t.output_max, t.sample_period_s, o.slug
+from loop l
+join loop_template t on t.organisation_id = l.organisation_id and t.id = l.template_id
+join organisation o on o.id = l.organisation_id
+where l.organisation_id = $1 and l.machine_id = $2
+order by l.key`;
+
+export async function getDeviceConfig(ctx: DeviceContext, ifNoneMatch: string | null, now = new Date()) {
+  const [rows, key] = await Promise.all([
+    getPool().query<LoopRow>({ name: "device_config_loops", text: LOOPS_SQL, values: [ctx.organisationId, ctx.machineId] }),
+    getSigningKey(getDb(), ctx.organisationId),
+  ]);
+  const loops = rows.rows.map((r) => ({
+    key: r.key,
+    version: r.config_version,
+    form: "parallel" as const,
+    gains: { kp: r.gains.kp, ki: r.gains.ki, kd: r.gains.kd },
+    outputMin: r.output_min,
+    outputMax: r.output_max,
+    samplePeriod: r.sample_period_s,
+  }));
+  const etag = `"${createHash("sha256").update(key.kid).update(ctx.deviceId).update(JSON.stringify(loops)).digest("base64url").slice(0, 32)}"`;
+  if (ifNoneMatch && ifNoneMatch.split(",").some((tag) => tag.trim().replace(/^W\//, "") === etag)) return { notModified: true as const, etag };
+  const slug = rows.rows[0]?.slug ?? (await getPool().query<{ slug: string }>("select slug from organisation where id = $1", [ctx.organisationId])).rows[0].slug;
+  const iat = Math.floor(now.getTime() / 1000);
+  const exp = iat + CONFIG_LIFETIME_S;
+  const jws = await new SignJWT({ loops })
+    .setProtectedHeader({ alg: "EdDSA", kid: key.kid, typ: "flyball-config+jwt" })
+    .setIssuer(`flyball:${slug}`)
+    .setAudience(ctx.deviceId)
+    .setSubject(ctx.machineId)
+    .setIssuedAt(iat)
+    .setExpirationTime(exp)
+    .sign(key.privateKey);
+  return { notModified: false as const, etag, body: { jws, expiresAt: new Date(exp * 1000).toISOString(), jwksUrl: `/api/v1/o/${slug}/jwks.json` } };
+}
+
+export class AckRefused extends Error {
+  constructor(readonly code: string, message: string, readonly status: number) {
+    super(message);
+  }
+}
+
+export async function acknowledgeConfig(ctx: DeviceContext, input: z.infer<typeof AckRequestSchema>) {
+  const current = await getPool().query<{ id: string; config_version: number }>(
+    "select id, config_version from loop where organisation_id = $1 and machine_id = $2 and key = $3",
+    [ctx.organisationId, ctx.machineId, input.loop],
+  );
+  const row = current.rows[0];
+  if (!row) throw new AckRefused("unknown_loop", `This machine has no loop "${input.loop}".`, 404);
+  if (input.version > row.config_version) throw new AckRefused("unknown_version", `Version ${input.version} was never issued for loop "${input.loop}".`, 409);
+  const applied = input.status === "applied";
+  await getPool().query(
+    `update loop set ack_status = $4, ack_reason = $5, acked_at = now(),
+       applied_version = case when $4 = 'applied' then greatest(coalesce(applied_version, 0), $6) else applied_version end
+     where organisation_id = $1 and machine_id = $2 and key = $3`,
+    [ctx.organisationId, ctx.machineId, input.loop, input.status, input.reason ?? null, input.version],
+  );
+  await recordAudit(getDb(), {
+    organisationId: ctx.organisationId,
+    actor: `device:${ctx.deviceId}`,
+    action: applied ? "device.config_applied" : "device.config_rejected",
+    targetType: "loop",
+    targetId: row.id,
+    detail: { loop: input.loop, version: input.version, reason: input.reason ?? null },
+  });
+  return { loop: input.loop, version: input.version, status: input.status, currentVersion: row.config_version };
+}

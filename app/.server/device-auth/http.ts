@@ -1,0 +1,57 @@
+// JSON answers of the device and management APIs: `{"error": {"code", "message", "issues"?}}`.
+import type { z } from "zod";
+
+const JSON_HEADERS = { "content-type": "application/json; charset=utf-8", "cache-control": "no-store" };
+
+export function jsonResponse(body: unknown, status = 200, headers: Record<string, string> = {}): Response {
+  return new Response(JSON.stringify(body), { status, headers: { ...JSON_HEADERS, ...headers } });
+}
+
+export type Issue = { path: (string | number)[]; message: string };
+
+export function apiError(status: number, code: string, message: string, issues?: Issue[], headers: Record<string, string> = {}): Response {
+  return jsonResponse({ error: issues ? { code, message, issues } : { code, message } }, status, headers);
+}
+
+export function zodIssues(error: z.ZodError): Issue[] {
+  return error.issues.map((i) => ({ path: i.path.map((p) => (typeof p === "symbol" ? String(p) : p)), message: i.message }));
+}
+
+/** Read a body of at most `limit` bytes; null when it is larger (the caller answers 413). */
+export async function readLimitedText(request: Request, limit: number): Promise<string | null> {
+  const declared = Number(request.headers.get("content-length"));
+  if (Number.isFinite(declared) && declared > limit) return null;
+  if (!request.body) return "";
+  const reader = request.body.getReader();
+  const chunks: Uint8Array[] = [];
+  let size = 0;
+  for (;;) {
+    const { done, value } = await reader.read();
+    if (done) break;
+    size += value.byteLength;
+    if (size > limit) {
+      await reader.cancel().catch(() => {});
+      return null;
+    }
+    chunks.push(value);
+  }
+  return Buffer.concat(chunks).toString("utf8");
+}
+
+/** Parse JSON, or answer 400 / 413 / 415. */
+export async function readJsonBody(request: Request, limit: number): Promise<{ ok: true; value: unknown } | { ok: false; response: Response }> {
+  const type = request.headers.get("content-type") ?? "";
+  if (!/^application\/json\b/i.test(type)) return { ok: false, response: apiError(415, "unsupported_media_type", "Send the body as application/json.") };
+  const text = await readLimitedText(request, limit);
+  if (text === null) return { ok: false, response: payloadTooLarge(`The body is larger than ${limit} bytes.`) };
+  try {
+    return { ok: true, value: JSON.parse(text) };
+  } catch {
+    return { ok: false, response: apiError(400, "invalid_json", "The body is not valid JSON.") };
+  }
+}
+
+/** 413; the connection is closed because the unread body would otherwise poison keep-alive. */
+export function payloadTooLarge(message: string, code = "payload_too_large"): Response {
+  return apiError(413, code, message, undefined, { connection: "close" });
+}

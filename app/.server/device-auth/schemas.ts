@@ -1,0 +1,132 @@
+// The device API's contract (DESIGN.md section 4) as zod schemas: the routes validate with
+// them and the OpenAPI document at /api/v1/openapi.json is generated from them.
+import { z } from "zod";
+
+export const LOOP_KEY_PATTERN = /^[a-z][a-z0-9_]{0,39}$/;
+
+export const ErrorSchema = z
+  .object({
+    error: z.object({
+      code: z.string().meta({ example: "invalid_body" }),
+      message: z.string(),
+      issues: z.array(z.object({ path: z.array(z.union([z.string(), z.number()])), message: z.string() })).optional(),
+    }),
+  })
+  .meta({ id: "Error" });
+
+const Base64Url = z.string().regex(/^[A-Za-z0-9_-]+$/, "Must be base64url.");
+
+// Strict objects: a private key sent by mistake (with `d`) is refused outright, never stored.
+const JwkExtras = { alg: z.enum(["EdDSA", "ES256"]).optional(), use: z.literal("sig").optional(), kid: z.string().max(128).optional() };
+export const PublicJwkSchema = z
+  .discriminatedUnion("kty", [
+    z.strictObject({ kty: z.literal("OKP"), crv: z.literal("Ed25519"), x: Base64Url.length(43), ...JwkExtras }),
+    z.strictObject({ kty: z.literal("EC"), crv: z.literal("P-256"), x: Base64Url.length(43), y: Base64Url.length(43), ...JwkExtras }),
+  ])
+  .meta({ id: "DevicePublicJwk", description: "The device's public key as a JWK: Ed25519 (alg EdDSA) or P-256 (alg ES256). Never send the private part `d`." });
+
+export const EnrolRequestSchema = z
+  .object({
+    enrolmentCode: z.string().trim().min(8).max(64).meta({ example: "FB-7KQ2M-RX4PA-9HTWE-C3NVB" }),
+    publicKey: PublicJwkSchema,
+    firmware: z.string().trim().min(1).max(64).optional().meta({ example: "4.2.1" }),
+  })
+  .meta({ id: "EnrolRequest" });
+
+export const EnrolResponseSchema = z
+  .object({
+    machineId: z.uuid(),
+    deviceId: z.uuid().meta({ description: "Use as the JWT `kid` and `iss`." }),
+    alg: z.enum(["EdDSA", "ES256"]),
+    loopKeys: z.array(z.string()),
+    jwksUrl: z.string().meta({ description: "Where the organisation's config-signing public keys are published." }),
+  })
+  .meta({ id: "EnrolResponse" });
+
+const Fraction = z.number().finite().min(0, "Must be between 0 and 1.").max(1, "Must be between 0 and 1.");
+const Finite = z.number().finite("Must be a finite number.");
+const Count = z.number().int("Must be an integer.").min(0).max(2_147_483_647);
+
+export const DigestSchema = z
+  .object({
+    loop: z.string().regex(LOOP_KEY_PATTERN, "Must be a loop key such as zone_1.").meta({ description: "Loop template key.", example: "zone_1" }),
+    seq: z.number().int().min(0).max(2_147_483_647).meta({ description: "Increasing per loop; (loop, seq) makes a retry harmless." }),
+    windowStart: z.iso.datetime({ offset: true, message: "Must be an ISO 8601 time." }),
+    windowEnd: z.iso.datetime({ offset: true, message: "Must be an ISO 8601 time." }),
+    samples: z.number().int().min(1).max(10_000_000),
+    gainVersion: z.number().int().min(0).max(2_147_483_647),
+    spMean: Finite,
+    pvMean: Finite,
+    errMean: Finite,
+    errRms: Finite.min(0),
+    errMaxAbs: Finite.min(0),
+    iae: Finite.min(0),
+    ise: Finite.min(0),
+    uMean: Finite,
+    uStd: Finite.min(0),
+    satHighFrac: Fraction,
+    satLowFrac: Fraction,
+    intClampFrac: Fraction.meta({ description: "Share of samples with the integrator held at a limit." }),
+    oscCount: Count.meta({ description: "Load-disturbance detections (Hägglund's IAE between zero crossings)." }),
+    spChanges: Count,
+  })
+  .meta({ id: "Digest" });
+export type DigestInput = z.infer<typeof DigestSchema>;
+
+export const MAX_DIGESTS_PER_BATCH = 500;
+export const MAX_DIGEST_BODY_BYTES = 256 * 1024;
+
+export const DigestBatchSchema = z
+  .object({ digests: z.array(z.unknown()).min(1, "Send at least one digest.").max(MAX_DIGESTS_PER_BATCH) })
+  .meta({ id: "DigestBatch" });
+
+/** For the document: the batch as devices should send it. */
+export const DigestBatchDocSchema = z.object({ digests: z.array(DigestSchema).min(1).max(MAX_DIGESTS_PER_BATCH) }).meta({ id: "DigestBatch" });
+
+export const DigestBatchResponseSchema = z
+  .object({
+    accepted: z.number().int(),
+    duplicates: z.number().int(),
+    rejected: z.array(z.object({ index: z.number().int(), code: z.string(), message: z.string() })),
+  })
+  .meta({ id: "DigestBatchResult" });
+
+export const ConfigLoopSchema = z
+  .object({
+    key: z.string(),
+    version: z.number().int().meta({ description: "Increases with every change to this loop's gains." }),
+    form: z.literal("parallel"),
+    gains: z.object({ kp: z.number(), ki: z.number().meta({ description: "1/s" }), kd: z.number().meta({ description: "s" }) }),
+    outputMin: z.number(),
+    outputMax: z.number(),
+    samplePeriod: z.number().meta({ description: "s" }),
+  })
+  .meta({ id: "ConfigLoop" });
+
+export const ConfigPayloadSchema = z
+  .object({
+    iss: z.string().meta({ description: "`flyball:<organisation slug>`" }),
+    aud: z.string().meta({ description: "The device id." }),
+    sub: z.string().meta({ description: "The machine id." }),
+    iat: z.number().int(),
+    exp: z.number().int(),
+    loops: z.array(ConfigLoopSchema),
+  })
+  .meta({ id: "ConfigPayload", description: "The claims inside the signed configuration." });
+
+export const ConfigResponseSchema = z
+  .object({
+    jws: z.string().meta({ description: "Compact JWS (EdDSA, typ flyball-config+jwt) whose payload is a ConfigPayload. Verify it against the JWKS before use." }),
+    expiresAt: z.iso.datetime(),
+    jwksUrl: z.string(),
+  })
+  .meta({ id: "ConfigResponse" });
+
+export const AckRequestSchema = z
+  .object({
+    loop: z.string().regex(LOOP_KEY_PATTERN, "Must be a loop key."),
+    version: z.number().int().min(1).max(2_147_483_647),
+    status: z.enum(["applied", "rejected"]),
+    reason: z.string().trim().max(500).optional(),
+  })
+  .meta({ id: "ConfigAck" });

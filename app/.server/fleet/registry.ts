@@ -1,0 +1,157 @@
+// Customers, sites, machine models and loop templates of one organisation.
+import { and, asc, count, eq, inArray, sql, type SQL } from "drizzle-orm";
+import { z } from "zod";
+import { recordAudit } from "~/.server/audit/record-audit";
+import type { Db } from "~/.server/db/client";
+import { customer, loopTemplate, machine, machineModel, site } from "~/.server/db/schema";
+import { FleetRuleError } from "./errors";
+import type { SiteScope } from "./scope";
+
+export type Page = { page: number; pageSize: number };
+
+export async function listCustomers(db: Db, scope: SiteScope, { page, pageSize }: Page) {
+  const where: SQL[] = [eq(customer.organisationId, scope.organisationId)];
+  if (scope.siteIds !== null) {
+    if (scope.siteIds.length === 0) return { items: [], total: 0, page, pageSize };
+    where.push(
+      inArray(
+        customer.id,
+        db.select({ id: site.customerId }).from(site).where(and(eq(site.organisationId, scope.organisationId), inArray(site.id, scope.siteIds))),
+      ),
+    );
+  }
+  const [{ total }] = await db.select({ total: count() }).from(customer).where(and(...where));
+  const items = await db
+    .select({
+      id: customer.id,
+      name: customer.name,
+      createdAt: customer.createdAt,
+      siteCount: sql<number>`(select count(*)::int from ${site} s where s.organisation_id = ${customer.organisationId} and s.customer_id = ${customer.id})`,
+    })
+    .from(customer)
+    .where(and(...where))
+    .orderBy(asc(customer.name))
+    .limit(pageSize)
+    .offset((page - 1) * pageSize);
+  return { items, total, page, pageSize };
+}
+
+export async function listSites(db: Db, scope: SiteScope, { page, pageSize, customerId }: Page & { customerId?: string }) {
+  const where: SQL[] = [eq(site.organisationId, scope.organisationId)];
+  if (customerId) where.push(eq(site.customerId, customerId));
+  if (scope.siteIds !== null) {
+    if (scope.siteIds.length === 0) return { items: [], total: 0, page, pageSize };
+    where.push(inArray(site.id, scope.siteIds));
+  }
+  const [{ total }] = await db.select({ total: count() }).from(site).where(and(...where));
+  const items = await db
+    .select({
+      id: site.id,
+      name: site.name,
+      customerId: site.customerId,
+      customerName: customer.name,
+      timeZone: site.timeZone,
+      machineCount: sql<number>`(select count(*)::int from ${machine} m where m.organisation_id = ${site.organisationId} and m.site_id = ${site.id})`,
+    })
+    .from(site)
+    .innerJoin(customer, and(eq(customer.organisationId, site.organisationId), eq(customer.id, site.customerId)))
+    .where(and(...where))
+    .orderBy(asc(customer.name), asc(site.name))
+    .limit(pageSize)
+    .offset((page - 1) * pageSize);
+  return { items, total, page, pageSize };
+}
+
+export const TIME_ZONES = typeof Intl.supportedValuesOf === "function" ? Intl.supportedValuesOf("timeZone") : ["UTC"];
+
+export const CustomerInputSchema = z.object({ name: z.string().trim().min(2, "Use at least 2 characters.").max(120) });
+export const SiteInputSchema = z.object({
+  customerId: z.uuid("Choose a customer."),
+  name: z.string().trim().min(2, "Use at least 2 characters.").max(120),
+  timeZone: z.string().refine((tz) => tz === "UTC" || TIME_ZONES.includes(tz), "Choose an IANA time zone, e.g. Europe/Oslo."),
+});
+
+export async function addCustomer(db: Db, { organisationId, actor, input }: { organisationId: string; actor: string; input: z.infer<typeof CustomerInputSchema> }) {
+  const [row] = await db.insert(customer).values({ organisationId, name: input.name }).onConflictDoNothing().returning();
+  if (!row) throw new FleetRuleError("customer_exists", "A customer of this name already exists.", 409);
+  await recordAudit(db, { organisationId, actor, action: "customer.created", targetType: "customer", targetId: row.id, detail: { name: row.name } });
+  return row;
+}
+
+export async function addSite(db: Db, { organisationId, actor, input }: { organisationId: string; actor: string; input: z.infer<typeof SiteInputSchema> }) {
+  const [owner] = await db.select({ id: customer.id }).from(customer).where(and(eq(customer.organisationId, organisationId), eq(customer.id, input.customerId)));
+  if (!owner) throw new FleetRuleError("unknown_customer", "No such customer.", 400);
+  const [row] = await db.insert(site).values({ organisationId, ...input }).onConflictDoNothing().returning();
+  if (!row) throw new FleetRuleError("site_exists", "This customer already has a site of this name.", 409);
+  await recordAudit(db, { organisationId, actor, action: "site.created", targetType: "site", targetId: row.id, detail: { name: row.name, timeZone: row.timeZone } });
+  return row;
+}
+
+const templateColumns = {
+  id: loopTemplate.id,
+  modelId: loopTemplate.modelId,
+  key: loopTemplate.key,
+  name: loopTemplate.name,
+  unit: loopTemplate.unit,
+  outputUnit: loopTemplate.outputUnit,
+  samplePeriodS: loopTemplate.samplePeriodS,
+  controllerForm: loopTemplate.controllerForm,
+  outputMin: loopTemplate.outputMin,
+  outputMax: loopTemplate.outputMax,
+  defaultGains: loopTemplate.defaultGains,
+  gainEnvelope: loopTemplate.gainEnvelope,
+  thresholds: loopTemplate.thresholds,
+  position: loopTemplate.position,
+};
+
+export async function listModels(db: Db, { organisationId, page, pageSize }: { organisationId: string } & Page) {
+  const [{ total }] = await db.select({ total: count() }).from(machineModel).where(eq(machineModel.organisationId, organisationId));
+  const models = await db
+    .select({
+      id: machineModel.id,
+      name: machineModel.name,
+      description: machineModel.description,
+      machineCount: sql<number>`(select count(*)::int from ${machine} m where m.organisation_id = ${machineModel.organisationId} and m.model_id = ${machineModel.id})`,
+    })
+    .from(machineModel)
+    .where(eq(machineModel.organisationId, organisationId))
+    .orderBy(asc(machineModel.name))
+    .limit(pageSize)
+    .offset((page - 1) * pageSize);
+  const templates = models.length
+    ? await db
+        .select(templateColumns)
+        .from(loopTemplate)
+        .where(and(eq(loopTemplate.organisationId, organisationId), inArray(loopTemplate.modelId, models.map((m) => m.id))))
+        .orderBy(asc(loopTemplate.position), asc(loopTemplate.key))
+    : [];
+  const items = models.map((m) => ({ ...m, loopTemplates: templates.filter((t) => t.modelId === m.id) }));
+  return { items, total, page, pageSize };
+}
+
+export async function listTemplatesOfModel(db: Db, { organisationId, modelId }: { organisationId: string; modelId: string }) {
+  return db
+    .select(templateColumns)
+    .from(loopTemplate)
+    .where(and(eq(loopTemplate.organisationId, organisationId), eq(loopTemplate.modelId, modelId)))
+    .orderBy(asc(loopTemplate.position), asc(loopTemplate.key));
+}
+
+/** Names of sites, customers and models for filters and forms. */
+export async function listRegistryOptions(db: Db, scope: SiteScope) {
+  const siteWhere: SQL[] = [eq(site.organisationId, scope.organisationId)];
+  if (scope.siteIds !== null) siteWhere.push(scope.siteIds.length ? inArray(site.id, scope.siteIds) : sql`false`);
+  const sites = await db
+    .select({ id: site.id, name: site.name, customerId: site.customerId, customerName: customer.name, timeZone: site.timeZone })
+    .from(site)
+    .innerJoin(customer, and(eq(customer.organisationId, site.organisationId), eq(customer.id, site.customerId)))
+    .where(and(...siteWhere))
+    .orderBy(asc(customer.name), asc(site.name));
+  const customers = [...new Map(sites.map((s) => [s.customerId, { id: s.customerId, name: s.customerName }])).values()];
+  const models = await db
+    .select({ id: machineModel.id, name: machineModel.name })
+    .from(machineModel)
+    .where(eq(machineModel.organisationId, scope.organisationId))
+    .orderBy(asc(machineModel.name));
+  return { sites, customers, models };
+}

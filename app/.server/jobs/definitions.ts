@@ -1,0 +1,51 @@
+// Background jobs (pg-boss): typed definitions in one list. Every payload is validated when
+// the job runs; handlers are idempotent (running one twice does no harm).
+import { sql } from "drizzle-orm";
+import { z } from "zod";
+import type { Db } from "~/.server/db/client";
+import { refreshMachineHealth } from "~/.server/fleet/health";
+
+export type JobDefinition<S extends z.ZodType> = {
+  name: string;
+  schema: S;
+  /** Cron (UTC) for recurring jobs. */
+  cron?: string;
+  handler: (db: Db, payload: z.infer<S>) => Promise<void>;
+};
+
+function defineJob<S extends z.ZodType>(job: JobDefinition<S>): JobDefinition<S> {
+  return job;
+}
+
+/** Digest partitions: this month and the next three exist at all times. */
+export const ensureDigestPartitions = defineJob({
+  name: "fleet.ensure-digest-partitions",
+  schema: z.object({}).passthrough(),
+  cron: "17 3 * * *",
+  handler: async (db) => {
+    await db.execute(sql`select flyball_ensure_digest_partitions(now()::date, 4)`);
+  },
+});
+
+/** Seen JWT ids are only needed until their token would have expired. */
+export const purgeDeviceJtis = defineJob({
+  name: "device.purge-jtis",
+  schema: z.object({}).passthrough(),
+  cron: "*/10 * * * *",
+  handler: async (db) => {
+    await db.execute(sql`delete from device_jti where expires_at < now()`);
+  },
+});
+
+/** Loop health of every machine that posted in the last 10 minutes (ingest also refreshes on the fly). */
+export const refreshFleetHealth = defineJob({
+  name: "fleet.refresh-health",
+  schema: z.object({}).passthrough(),
+  cron: "*/5 * * * *",
+  handler: async (db) => {
+    const rows = await db.execute<{ organisation_id: string; id: string }>(sql`select organisation_id, id from machine where status = 'active' and last_seen_at > now() - interval '10 minutes'`);
+    for (const row of rows.rows) await refreshMachineHealth(db, { organisationId: row.organisation_id, machineId: row.id });
+  },
+});
+
+export const JOBS = [ensureDigestPartitions, purgeDeviceJtis, refreshFleetHealth] as const;

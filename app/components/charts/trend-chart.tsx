@@ -1,0 +1,104 @@
+// A thin-line trend over time (visx): axes with labels and units, a dashed threshold, a
+// tooltip with the exact value and time. Sized to its container, so it reads at 390 px.
+import { useEffect, useRef, useState } from "react";
+import { Axis, Grid, LineSeries, Tooltip, XYChart } from "@visx/xychart";
+
+export type TrendPoint = { t: number; v: number };
+
+const accessors = { xAccessor: (d: TrendPoint) => new Date(d.t), yAccessor: (d: TrendPoint) => d.v };
+const timeFormat = new Intl.DateTimeFormat("en-GB", { day: "numeric", month: "short", hour: "2-digit", minute: "2-digit", timeZone: "UTC" });
+const dayTick = new Intl.DateTimeFormat("en-GB", { day: "numeric", month: "short", timeZone: "UTC" });
+const hourTick = new Intl.DateTimeFormat("en-GB", { hour: "2-digit", minute: "2-digit", timeZone: "UTC" });
+
+export function TrendChart({
+  title,
+  unit,
+  points,
+  threshold,
+  thresholdLabel,
+  format = (v) => v.toPrecision(3),
+  height = 180,
+  domainMax,
+}: {
+  title: string;
+  unit: string;
+  points: TrendPoint[];
+  threshold?: number;
+  thresholdLabel?: string;
+  format?: (v: number) => string;
+  height?: number;
+  domainMax?: number;
+}) {
+  const max = Math.max(domainMax ?? 0, threshold !== undefined ? threshold * 1.2 : 0, ...points.map((p) => p.v), 1e-9);
+  const spanMs = points.length > 1 ? points[points.length - 1].t - points[0].t : 0;
+  const tick = spanMs > 2 * 86_400_000 ? dayTick : hourTick;
+  const thresholdLine = threshold !== undefined && points.length > 1 ? [{ t: points[0].t, v: threshold }, { t: points[points.length - 1].t, v: threshold }] : [];
+  return (
+    <figure className="min-w-0">
+      <figcaption className="flex items-baseline justify-between text-xs">
+        <span className="font-medium text-ink">{title}</span>
+        {thresholdLabel ? (
+          <span className="flex items-center gap-1 text-ink-faint">
+            <svg width="18" height="4" aria-hidden="true"><line x1="0" x2="18" y1="2" y2="2" stroke="var(--color-act)" strokeDasharray="3 3" /></svg>
+            {thresholdLabel}
+          </span>
+        ) : null}
+      </figcaption>
+      {points.length === 0 ? (
+        <p className="mt-2 flex items-center justify-center rounded-md border border-dashed border-rule text-xs text-ink-faint" style={{ height }}>
+          No digests in this range.
+        </p>
+      ) : (
+        <Sized height={height}>
+        {(width) => (
+        <XYChart width={width} height={height} margin={{ top: 10, right: 12, bottom: 28, left: 48 }} xScale={{ type: "time" }} yScale={{ type: "linear", domain: [0, max], nice: true }}>
+          <Grid columns={false} numTicks={4} lineStyle={{ stroke: "var(--color-rule)", strokeWidth: 1 }} />
+          <Axis orientation="bottom" numTicks={3} tickFormat={(d: Date) => tick.format(d)} tickLabelProps={() => ({ fontSize: 10, fill: "var(--color-ink-faint)", textAnchor: "middle" })} stroke="var(--color-rule)" tickStroke="var(--color-rule)" />
+          <Axis
+            orientation="left"
+            numTicks={4}
+            label={unit}
+            labelProps={{ fontSize: 10, fill: "var(--color-ink-faint)" }}
+            tickFormat={(v: number) => format(v)}
+            tickLabelProps={() => ({ fontSize: 10, fill: "var(--color-ink-faint)", textAnchor: "end", dx: -2, dy: 3 })}
+            stroke="var(--color-rule)"
+            tickStroke="var(--color-rule)"
+          />
+          {thresholdLine.length ? <LineSeries dataKey="threshold" data={thresholdLine} {...accessors} stroke="var(--color-act)" strokeDasharray="4 4" strokeWidth={1} /> : null}
+          <LineSeries dataKey={title} data={points} {...accessors} stroke="var(--color-accent)" strokeWidth={1.25} />
+          <Tooltip<TrendPoint>
+            snapTooltipToDatumX
+            showVerticalCrosshair
+            verticalCrosshairStyle={{ stroke: "var(--color-ink-faint)", strokeDasharray: "2 2" }}
+            renderTooltip={({ tooltipData }) => {
+              const d = tooltipData?.datumByKey[title]?.datum;
+              if (!d) return null;
+              return (
+                <div className="text-xs">
+                  <div className="font-medium tabular">{format(d.v)} <span className="text-ink-faint">{unit}</span></div>
+                  <div className="text-ink-faint">{timeFormat.format(new Date(d.t))} UTC</div>
+                </div>
+              );
+            }}
+          />
+        </XYChart>
+        )}
+        </Sized>
+      )}
+    </figure>
+  );
+}
+
+/** Measures its own width (ResizeObserver) and renders the chart once it is known. */
+function Sized({ height, children }: { height: number; children: (width: number) => React.ReactNode }) {
+  const ref = useRef<HTMLDivElement>(null);
+  const [width, setWidth] = useState(0);
+  useEffect(() => {
+    const element = ref.current;
+    if (!element) return;
+    const observer = new ResizeObserver((entries) => setWidth(Math.floor(entries[0].contentRect.width)));
+    observer.observe(element);
+    return () => observer.disconnect();
+  }, []);
+  return <div ref={ref} style={{ height }}>{width > 0 ? children(width) : null}</div>;
+}

@@ -1,0 +1,11 @@
+export { createDigestAccumulator, loadDisturbanceLimit, type DigestAccumulator, type DigestAccumulatorOptions, type DigestStats } from "./digest";
+export {
+  assessLoopHealth,
+  bandForScore,
+  HEALTH_BANDS,
+  worseBand,
+  type DigestSummary,
+  type HealthAssessment,
+  type HealthBand,
+  type HealthThresholdSettings,
+} from "./assess";

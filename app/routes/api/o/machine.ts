@@ -1,0 +1,17 @@
+// GET /api/v1/o/:slug/machines/:id (with its loops)
+import { getDb } from "~/.server/db/client";
+import { apiError } from "~/.server/device-auth/http";
+import { handleApi, methodNotAllowed, requireApiCaller } from "~/.server/fleet/api-auth";
+import { getMachine } from "~/.server/fleet/machines";
+import type { Route } from "./+types/machine";
+
+export function loader({ request, params }: Route.LoaderArgs) {
+  return handleApi(async () => {
+    const caller = await requireApiCaller(request, params.slug, "fleet:read");
+    const machine = await getMachine(getDb(), caller.scope, params.id);
+    if (!machine) return apiError(404, "not_found", "No such machine.");
+    return { machine };
+  });
+}
+
+export const action = () => methodNotAllowed("GET");

@@ -1,0 +1,31 @@
+// GET /api/v1/o/:slug/machines?customerId=&siteId=&modelId=&health=&status=&q=&sort=&dir=&page=&pageSize=
+// POST /api/v1/o/:slug/machines {serial, modelId, siteId, firmware?} → 201 {machine, enrolmentCode}
+import { getDb } from "~/.server/db/client";
+import { apiError, jsonResponse, readJsonBody, zodIssues } from "~/.server/device-auth/http";
+import { handleApi, requireApiCaller } from "~/.server/fleet/api-auth";
+import { getMachine, listMachines, MachineListQuerySchema, RegisterMachineSchema, registerMachine } from "~/.server/fleet/machines";
+import { searchParams } from "~/.server/fleet/query";
+import type { Route } from "./+types/machines";
+
+export function loader({ request, params }: Route.LoaderArgs) {
+  return handleApi(async () => {
+    const caller = await requireApiCaller(request, params.slug, "fleet:read");
+    const query = MachineListQuerySchema.safeParse(searchParams(request));
+    if (!query.success) return apiError(400, "invalid_query", "Check the query parameters.", zodIssues(query.error));
+    return listMachines(getDb(), caller.scope, query.data);
+  });
+}
+
+export function action({ request, params }: Route.ActionArgs) {
+  return handleApi(async () => {
+    if (request.method !== "POST") return apiError(405, "method_not_allowed", "Use GET or POST.", undefined, { allow: "GET, POST" });
+    const caller = await requireApiCaller(request, params.slug, "machines:manage");
+    const body = await readJsonBody(request, 16 * 1024);
+    if (!body.ok) return body.response;
+    const input = RegisterMachineSchema.safeParse(body.value);
+    if (!input.success) return apiError(400, "invalid_body", "Check the machine's fields.", zodIssues(input.error));
+    const created = await getDb().transaction((tx) => registerMachine(tx, { organisationId: caller.scope.organisationId, actor: caller.actor, input: input.data }));
+    const machine = await getMachine(getDb(), caller.scope, created.machine.id);
+    return jsonResponse({ machine, enrolmentCode: { code: created.enrolmentCode.code, expiresAt: created.enrolmentCode.expiresAt.toISOString() } }, 201);
+  });
+}

@@ -1,0 +1,18 @@
+// GET /api/v1/o/:slug/models (each with its loop templates)
+import { getDb } from "~/.server/db/client";
+import { apiError, zodIssues } from "~/.server/device-auth/http";
+import { handleApi, methodNotAllowed, requireApiCaller } from "~/.server/fleet/api-auth";
+import { PageQuerySchema, searchParams } from "~/.server/fleet/query";
+import { listModels } from "~/.server/fleet/registry";
+import type { Route } from "./+types/models";
+
+export function loader({ request, params }: Route.LoaderArgs) {
+  return handleApi(async () => {
+    const caller = await requireApiCaller(request, params.slug, "fleet:read");
+    const query = PageQuerySchema.safeParse(searchParams(request));
+    if (!query.success) return apiError(400, "invalid_query", "Check the query parameters.", zodIssues(query.error));
+    return listModels(getDb(), { organisationId: caller.scope.organisationId, ...query.data });
+  });
+}
+
+export const action = () => methodNotAllowed("GET");

@@ -1,0 +1,20 @@
+// GET /api/v1/o/:slug/sites?customerId=
+import { getDb } from "~/.server/db/client";
+import { apiError, zodIssues } from "~/.server/device-auth/http";
+import { handleApi, methodNotAllowed, requireApiCaller } from "~/.server/fleet/api-auth";
+import { optionalId, PageQuerySchema, searchParams } from "~/.server/fleet/query";
+import { listSites } from "~/.server/fleet/registry";
+import type { Route } from "./+types/sites";
+
+const SitesQuerySchema = PageQuerySchema.extend({ customerId: optionalId });
+
+export function loader({ request, params }: Route.LoaderArgs) {
+  return handleApi(async () => {
+    const caller = await requireApiCaller(request, params.slug, "fleet:read");
+    const query = SitesQuerySchema.safeParse(searchParams(request));
+    if (!query.success) return apiError(400, "invalid_query", "Check the query parameters.", zodIssues(query.error));
+    return listSites(getDb(), caller.scope, query.data);
+  });
+}
+
+export const action = () => methodNotAllowed("GET");

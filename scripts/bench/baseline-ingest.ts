@@ -1,0 +1,39 @@
+// The bare baseline for the ingest bench: node:http + pg, no auth, no validation. It inserts
+// the same rows into the same digest table (one multi-row INSERT per request) and answers
+// config pulls with 304 after the same loop lookup, or (GET /static-config) with no work at all.
+import http from "node:http";
+import pg from "pg";
+
+const port = Number(process.env.BASELINE_PORT ?? 3301);
+const pool = new pg.Pool({ connectionString: process.env.DATABASE_URL, max: Number(process.env.DATABASE_POOL_SIZE ?? 10) });
+const COLS = ["loop_id", "seq", "window_start", "window_end", "samples", "gain_version", "sp_mean", "pv_mean", "err_mean", "err_rms", "err_max_abs", "iae", "ise", "u_mean", "u_std", "sat_high_frac", "sat_low_frac", "int_clamp_frac", "osc_count", "sp_changes"];
+const TYPES = ["uuid", "int4", "timestamptz", "timestamptz", "int4", "int4", "float8", "float8", "float8", "float8", "float8", "float8", "float8", "float8", "float8", "float8", "float8", "float8", "int4", "int4"];
+const SQL = `insert into digest (organisation_id, ${COLS.join(", ")}) select $1, * from unnest(${TYPES.map((t, i) => `$${i + 2}::${t}[]`).join(", ")}) on conflict do nothing`;
+const FIELDS = ["loopId", "seq", "windowStart", "windowEnd", "samples", "gainVersion", "spMean", "pvMean", "errMean", "errRms", "errMaxAbs", "iae", "ise", "uMean", "uStd", "satHighFrac", "satLowFrac", "intClampFrac", "oscCount", "spChanges"];
+
+http
+  .createServer((req, res) => {
+    if (req.method === "GET" && req.url === "/static-config") {
+      res.writeHead(304, { etag: '"x"' }).end();
+      return;
+    }
+    if (req.method === "GET") {
+      const organisationId = String(req.headers["x-organisation"]);
+      const machineId = String(req.headers["x-machine"]);
+      pool
+        .query({ name: "loops", text: "select key, config_version from loop where organisation_id = $1 and machine_id = $2 order by key", values: [organisationId, machineId] })
+        .then(() => res.writeHead(304, { etag: '"x"' }).end(), () => res.writeHead(500).end());
+      return;
+    }
+    const chunks: Buffer[] = [];
+    req.on("data", (c: Buffer) => chunks.push(c));
+    req.on("end", () => {
+      const body = JSON.parse(Buffer.concat(chunks).toString()) as { organisationId: string; digests: Record<string, unknown>[] };
+      const columns = FIELDS.map((f) => body.digests.map((d) => d[f]));
+      pool.query({ name: "ins", text: SQL, values: [body.organisationId, ...columns] }).then(
+        (r) => res.writeHead(200, { "content-type": "application/json" }).end(JSON.stringify({ accepted: r.rowCount })),
+        (e) => res.writeHead(500).end(String(e)),
+      );
+    });
+  })
+  .listen(port, "127.0.0.1", () => console.log(`baseline on ${port}`));

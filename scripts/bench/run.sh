@@ -1,0 +1,10 @@
+#!/usr/bin/env bash
+# npm run bench: every scripts/bench/*-bench.ts in turn (each prints its own figures).
+set -uo pipefail
+cd "$(dirname "$0")/../.."
+status=0
+for bench in scripts/bench/*-bench.ts; do
+  echo "=== $(basename "$bench" .ts) ==="
+  node_modules/.bin/tsx "$bench" "$@" || status=1
+done
+exit $status

@@ -1,0 +1,290 @@
+// The device API over real HTTP against the running app: enrolment, token checks, digest
+// ingest, config pull and acknowledgement (DESIGN.md section 4).
+import { and, eq, sql } from "drizzle-orm";
+import { compactVerify, importJWK, SignJWT, decodeJwt } from "jose";
+import { randomUUID } from "node:crypto";
+import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { auditEvent, device, loop, machine } from "~/.server/db/schema";
+import { createDeviceIdentity, DeviceClient, sampleDigest } from "../../scripts/simulator/device-client";
+import { createTeam, createTestFleet } from "../factories";
+import { closeDb, db } from "../support/db";
+import { APP_URL, postJson, signIn } from "../support/http";
+
+type Fleet = Awaited<ReturnType<typeof createTestFleet>>;
+let team: Awaited<ReturnType<typeof createTeam>>;
+let fleet: Fleet;
+
+async function digestCount(machineId: string): Promise<number> {
+  const result = await db().execute<{ n: number }>(sql`select count(*)::int as n from digest d join loop l on l.organisation_id = d.organisation_id and l.id = d.loop_id where l.machine_id = ${machineId}::uuid`);
+  return Number(result.rows[0].n);
+}
+
+async function enrolled(index: number, alg: "EdDSA" | "ES256" = "EdDSA") {
+  const client = new DeviceClient(APP_URL, await createDeviceIdentity(alg));
+  const response = await client.enrol(fleet.machines[index].enrolmentCode, "1.0.0");
+  expect(response.status).toBe(201);
+  return client;
+}
+
+const minutesAgo = (m: number) => new Date(Date.now() - m * 60_000);
+
+beforeAll(async () => {
+  team = await createTeam(db(), ["owner"]);
+  fleet = await createTestFleet(db(), { organisationId: team.organisation.id, machinesPerSite: 4 });
+});
+afterAll(closeDb);
+
+describe("enrol → post → pull → ack", () => {
+  it("completes the round trip and every step is visible in the database", async () => {
+    const client = new DeviceClient(APP_URL, await createDeviceIdentity("EdDSA"));
+    const enrol = await client.enrol(fleet.machines[0].enrolmentCode, "2.3.4");
+    expect(enrol.status).toBe(201);
+    const body = await enrol.json();
+    expect(body).toMatchObject({ machineId: fleet.machines[0].id, alg: "EdDSA", loopKeys: ["speed", "temp"] });
+
+    const post = await client.postDigests([sampleDigest("temp", 1, minutesAgo(3)), sampleDigest("speed", 1, minutesAgo(3))]);
+    expect(post.status).toBe(200);
+    expect(await post.json()).toEqual({ accepted: 2, duplicates: 0, rejected: [] });
+    expect(await digestCount(fleet.machines[0].id)).toBe(2);
+    const [m] = await db().select().from(machine).where(eq(machine.id, fleet.machines[0].id));
+    expect(m.lastSeenAt).not.toBeNull();
+    expect(m.firmware).toBe("2.3.4");
+
+    const config = await client.getConfig();
+    expect(config.status).toBe(200);
+    const etag = config.headers.get("etag");
+    expect(etag).toBeTruthy();
+    const { jws, jwksUrl } = await config.json();
+    const jwks = await (await fetch(`${APP_URL}${jwksUrl}`)).json();
+    const kid = JSON.parse(Buffer.from(jws.split(".")[0], "base64url").toString()).kid;
+    const jwk = jwks.keys.find((k: { kid: string }) => k.kid === kid);
+    const verified = await compactVerify(jws, await importJWK(jwk, "EdDSA"));
+    const payload = JSON.parse(new TextDecoder().decode(verified.payload));
+    expect(payload.aud).toBe(client.deviceId);
+    expect(payload.exp).toBeGreaterThan(payload.iat);
+    const temp = payload.loops.find((l: { key: string }) => l.key === "temp");
+    expect(temp).toMatchObject({ version: 1, gains: { kp: 6, ki: 0.04, kd: 0 }, outputMin: 0, outputMax: 255 });
+
+    const again = await client.getConfig(etag!);
+    expect(again.status).toBe(304);
+
+    const ack = await client.ack({ loop: "temp", version: 1, status: "applied" });
+    expect(ack.status).toBe(200);
+    const [l] = await db().select().from(loop).where(and(eq(loop.machineId, fleet.machines[0].id), eq(loop.key, "temp")));
+    expect(l.appliedVersion).toBe(1);
+    expect(l.ackStatus).toBe("applied");
+
+    expect((await client.ack({ loop: "nope", version: 1, status: "applied" })).status).toBe(404);
+    expect((await client.ack({ loop: "temp", version: 99, status: "applied" })).status).toBe(409);
+    expect((await client.ack({ loop: "temp", version: 1, status: "maybe" as "applied" })).status).toBe(400);
+
+    const audits = await db().select().from(auditEvent).where(and(eq(auditEvent.organisationId, team.organisation.id), eq(auditEvent.targetId, fleet.machines[0].id)));
+    expect(audits.map((a) => a.action)).toContain("device.enrolled");
+  });
+
+  it("accepts P-256 keys (ES256)", async () => {
+    const client = await enrolled(1, "ES256");
+    expect((await client.postDigests([sampleDigest("temp", 1, minutesAgo(2))])).status).toBe(200);
+  });
+
+  it("uses an enrolment code once only and refuses bad enrolments", async () => {
+    const code = fleet.machines[2].enrolmentCode;
+    const first = new DeviceClient(APP_URL, await createDeviceIdentity());
+    expect((await first.enrol(code)).status).toBe(201);
+    const second = new DeviceClient(APP_URL, await createDeviceIdentity());
+    const reused = await second.enrol(code);
+    expect(reused.status).toBe(401);
+    expect((await reused.json()).error.code).toBe("invalid_enrolment_code");
+    const identity = await createDeviceIdentity();
+    // A private key must never be accepted as the public key.
+    const leaked = await postJson("/api/v1/device/enrol", { enrolmentCode: "FB-AAAAA-AAAAA-AAAAA-AAAAA", publicKey: identity.privateJwk });
+    expect(leaked.status).toBe(400);
+    const wrongKty = await postJson("/api/v1/device/enrol", { enrolmentCode: "FB-AAAAA-AAAAA-AAAAA-AAAAA", publicKey: { kty: "RSA", n: "x", e: "AQAB" } });
+    expect(wrongKty.status).toBe(400);
+    expect((await postJson("/api/v1/device/enrol", "{not json")).status).toBe(400);
+    expect((await postJson("/api/v1/device/enrol", { enrolmentCode: "FB-AAAAA-AAAAA-AAAAA-AAAAA", publicKey: identity.publicJwk })).status).toBe(401);
+  });
+});
+
+describe("forged and unusable tokens are refused and write nothing", () => {
+  let client: DeviceClient;
+  beforeAll(async () => {
+    client = await enrolled(3);
+  });
+
+  const b64 = (value: unknown) => Buffer.from(JSON.stringify(value)).toString("base64url");
+  const claims = () => {
+    const now = Math.floor(Date.now() / 1000);
+    return { iss: client.deviceId, aud: "flyball-device", iat: now, exp: now + 60, jti: randomUUID() };
+  };
+
+  const cases: [string, () => Promise<string>, string][] = [
+    ["alg none", async () => `${b64({ alg: "none", kid: client.deviceId })}.${b64(claims())}.`, "unsupported_alg"],
+    [
+      "HS256 signed with the public key",
+      async () =>
+        new SignJWT(claims())
+          .setProtectedHeader({ alg: "HS256", kid: client.deviceId })
+          .sign(new TextEncoder().encode(JSON.stringify(client.identity.publicJwk))),
+      "unsupported_alg",
+    ],
+    ["wrong audience", () => client.token({ aud: "someone-else" }), "wrong_audience"],
+    ["wrong issuer", () => client.token({ iss: randomUUID() }), "wrong_issuer"],
+    ["expired", () => client.token({ iat: Math.floor(Date.now() / 1000) - 600, lifetime: 120 }), "token_expired"],
+    ["lifetime over 5 minutes", () => client.token({ lifetime: 301 }), "token_lifetime_too_long"],
+    ["iat in the future beyond the skew", () => client.token({ iat: Math.floor(Date.now() / 1000) + 120, lifetime: 60 }), "token_not_yet_valid"],
+    ["unknown kid", () => client.token({ kid: randomUUID() }), "unknown_key"],
+    [
+      "signed by another key",
+      async () => {
+        const other = await createDeviceIdentity();
+        return new SignJWT(claims()).setProtectedHeader({ alg: "EdDSA", kid: client.deviceId }).sign(await importJWK(other.privateJwk, "EdDSA"));
+      },
+      "bad_signature",
+    ],
+    ["garbage", async () => "not.a.token", "malformed_token"],
+  ];
+
+  for (const [name, forge, reason] of cases) {
+    it(`refuses ${name}`, async () => {
+      const before = await digestCount(fleet.machines[3].id);
+      const response = await client.postDigests([sampleDigest("temp", 1000 + Math.floor(Math.random() * 1e6), minutesAgo(5))], await forge());
+      expect(response.status).toBe(401);
+      const body = await response.json();
+      expect(body.error.code).toBe(reason);
+      expect(body.error.message).toBe("The device could not be authenticated.");
+      expect(await digestCount(fleet.machines[3].id)).toBe(before);
+      expect((await client.getConfig(undefined, await forge())).status).toBe(401);
+    });
+  }
+
+  it("refuses a missing token", async () => {
+    const response = await postJson("/api/v1/device/digests", { digests: [sampleDigest("temp", 1, minutesAgo(5))] });
+    expect(response.status).toBe(401);
+    expect((await response.json()).error.code).toBe("missing_token");
+  });
+
+  it("refuses a replayed jti", async () => {
+    const token = await client.token();
+    const before = await digestCount(fleet.machines[3].id);
+    expect((await client.postDigests([sampleDigest("temp", 1, minutesAgo(4))], token)).status).toBe(200);
+    const replay = await client.postDigests([sampleDigest("temp", 2, minutesAgo(3))], token);
+    expect(replay.status).toBe(401);
+    expect((await replay.json()).error.code).toBe("token_replayed");
+    expect(await digestCount(fleet.machines[3].id)).toBe(before + 1);
+  });
+
+  it("refuses a revoked device, and a re-enrolled one works again", async () => {
+    const victim = await enrolled(4);
+    const owner = await signIn(team.people[0].email);
+    const revoke = await postJson(`/api/v1/o/${team.organisation.slug}/machines/${fleet.machines[4].id}/revoke-device`, {}, owner);
+    expect(revoke.status).toBe(200);
+    const before = await digestCount(fleet.machines[4].id);
+    const refused = await victim.postDigests([sampleDigest("temp", 1, minutesAgo(2))]);
+    expect(refused.status).toBe(401);
+    expect((await refused.json()).error.code).toBe("device_revoked");
+    expect(await digestCount(fleet.machines[4].id)).toBe(before);
+    const [d] = await db().select().from(device).where(eq(device.id, victim.deviceId));
+    expect(d.status).toBe("revoked");
+    const fresh = await postJson(`/api/v1/o/${team.organisation.slug}/machines/${fleet.machines[4].id}/enrolment-code`, {}, owner);
+    expect(fresh.status).toBe(201);
+    const { enrolmentCode } = await fresh.json();
+    const again = new DeviceClient(APP_URL, await createDeviceIdentity());
+    expect((await again.enrol(enrolmentCode.code)).status).toBe(201);
+    expect((await again.postDigests([sampleDigest("temp", 1, minutesAgo(2))])).status).toBe(200);
+  });
+
+  it("refuses a decommissioned machine's device", async () => {
+    const gone = await enrolled(5);
+    const owner = await signIn(team.people[0].email);
+    expect((await postJson(`/api/v1/o/${team.organisation.slug}/machines/${fleet.machines[5].id}/decommission`, {}, owner)).status).toBe(200);
+    const refused = await gone.postDigests([sampleDigest("temp", 1, minutesAgo(2))]);
+    expect(refused.status).toBe(401);
+    expect(["device_revoked", "machine_decommissioned"]).toContain((await refused.json()).error.code);
+  });
+
+  it("checks the token's claims from a well-formed token", () => {
+    return client.token().then((t) => {
+      const c = decodeJwt(t);
+      expect(c.exp! - c.iat!).toBeLessThanOrEqual(300);
+    });
+  });
+});
+
+describe("digest ingest", () => {
+  let client: DeviceClient;
+  beforeAll(async () => {
+    client = await enrolled(6);
+  });
+
+  it("stores a batch posted twice only once", async () => {
+    const start = minutesAgo(120);
+    const batch = Array.from({ length: 20 }, (_, i) => sampleDigest(i % 2 ? "temp" : "speed", 100 + i, new Date(start.getTime() + i * 60_000)));
+    const before = await digestCount(fleet.machines[6].id);
+    expect(await (await client.postDigests(batch)).json()).toEqual({ accepted: 20, duplicates: 0, rejected: [] });
+    expect(await (await client.postDigests(batch)).json()).toEqual({ accepted: 0, duplicates: 20, rejected: [] });
+    // The same (loop, seq) with another window is still a duplicate.
+    const shifted = { ...batch[0], windowStart: minutesAgo(30).toISOString(), windowEnd: minutesAgo(29).toISOString() };
+    expect(await (await client.postDigests([shifted, shifted])).json()).toEqual({ accepted: 0, duplicates: 2, rejected: [] });
+    expect(await digestCount(fleet.machines[6].id)).toBe(before + 20);
+  });
+
+  it("stores the 497 good digests of a batch with 3 bad ones and names the 3", async () => {
+    const start = minutesAgo(24 * 60);
+    const batch: Record<string, unknown>[] = Array.from({ length: 500 }, (_, i) => sampleDigest(i % 2 ? "temp" : "speed", 10_000 + i, new Date(start.getTime() + i * 60_000)));
+    batch[17] = { ...batch[17], satHighFrac: 1.5 };
+    batch[250] = { ...batch[250], windowEnd: batch[250].windowStart };
+    batch[499] = { ...batch[499], loop: "no_such_loop" };
+    const before = await digestCount(fleet.machines[6].id);
+    const response = await client.postDigests(batch);
+    expect(response.status).toBe(200);
+    const body = await response.json();
+    expect(body.accepted).toBe(497);
+    expect(body.duplicates).toBe(0);
+    expect(body.rejected.map((r: { index: number }) => r.index)).toEqual([17, 250, 499]);
+    expect(body.rejected.map((r: { code: string }) => r.code)).toEqual(["invalid_digest", "invalid_window", "unknown_loop"]);
+    expect(await digestCount(fleet.machines[6].id)).toBe(before + 497);
+  });
+
+  it("refuses hostile items one by one", async () => {
+    const base = sampleDigest("temp", 50_000, minutesAgo(10));
+    const bad = [
+      { ...base, seq: 50_001, errRms: -1 },
+      { ...base, seq: 50_002, intClampFrac: Number.NaN },
+      { ...base, seq: 50_003, spMean: "220" },
+      { ...base, seq: 50_004, windowStart: "yesterday" },
+      { ...base, seq: 1.5 },
+      { ...base, seq: 50_005, windowStart: new Date(Date.now() + 86_400_000).toISOString(), windowEnd: new Date(Date.now() + 86_460_000).toISOString() },
+      null,
+      "digest",
+    ];
+    const body = await (await client.postDigests(bad)).json();
+    expect(body.accepted).toBe(0);
+    expect(body.rejected).toHaveLength(bad.length);
+  });
+
+  it("answers 413 for oversize bodies and batches", async () => {
+    const big = Array.from({ length: 400 }, (_, i) => ({ ...sampleDigest("temp", 90_000 + i, minutesAgo(50)), padding: "x".repeat(700) }));
+    const before = await digestCount(fleet.machines[6].id);
+    expect((await client.postDigests(big)).status).toBe(413);
+    const many = Array.from({ length: 501 }, (_, i) => sampleDigest("temp", 95_000 + i, minutesAgo(40)));
+    expect((await client.postDigests(many)).status).toBe(413);
+    expect(await digestCount(fleet.machines[6].id)).toBe(before);
+  });
+
+  it("answers 400 for a body that is not a batch", async () => {
+    const token = await client.token();
+    const response = await fetch(`${APP_URL}/api/v1/device/digests`, { method: "POST", headers: { "content-type": "application/json", authorization: `Bearer ${token}` }, body: "[1,2" });
+    expect(response.status).toBe(400);
+    expect((await client.postDigests([])).status).toBe(400);
+  });
+
+  it("answers 429 with Retry-After when a device floods", async () => {
+    const flooder = await enrolled(7);
+    const responses = await Promise.all(Array.from({ length: 90 }, async (_, i) => flooder.postDigests([sampleDigest("speed", 70_000 + i, minutesAgo(15))])));
+    const limited = responses.filter((r) => r.status === 429);
+    expect(limited.length).toBeGreaterThan(0);
+    expect(Number(limited[0].headers.get("retry-after"))).toBeGreaterThanOrEqual(1);
+    expect(responses.every((r) => r.status === 200 || r.status === 429)).toBe(true);
+  });
+});
