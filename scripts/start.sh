@@ -41,7 +41,7 @@ mkdir -p data
 npx react-router build >data/build.log 2>&1 || { cat data/build.log >&2; exit 1; }
 
 start_child mail node_modules/.bin/tsx fakes/resend/server.ts
-start_child app node_modules/.bin/react-router-serve build/server/index.js
+start_child app node scripts/serve.js build/server/index.js
 wait_for_http "http://127.0.0.1:$RESEND_FAKE_PORT/api/messages" 60
 wait_for_http "http://$HOST:$PORT/" 120
 for extra in scripts/worker.ts scripts/simulate.ts; do

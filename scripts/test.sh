@@ -55,7 +55,7 @@ wait_for_http "$RESEND_BASE_URL/api/messages" 60 || exit 1
 
 echo "Building the app…"
 node_modules/.bin/react-router build >"$REPORTS/build.log" 2>&1 || { cat "$REPORTS/build.log"; exit 1; }
-start_child app env NODE_ENV=production PORT="$TEST_APP_PORT" HOST=127.0.0.1 node_modules/.bin/react-router-serve "$FLYBALL_BUILD_DIR/server/index.js"
+start_child app env NODE_ENV=production PORT="$TEST_APP_PORT" HOST=127.0.0.1 node scripts/serve.js "$FLYBALL_BUILD_DIR/server/index.js"
 wait_for_http "http://127.0.0.1:$TEST_APP_PORT/" 120 || exit 1
 export APP_URL="http://127.0.0.1:$TEST_APP_PORT"
 

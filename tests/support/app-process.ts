@@ -17,7 +17,7 @@ export async function startAppInstance(env: Record<string, string>): Promise<{ u
   const port = await freePort();
   const url = `http://127.0.0.1:${port}`;
   const buildDir = process.env.FLYBALL_BUILD_DIR ?? "build";
-  const child: ChildProcess = spawn("node_modules/.bin/react-router-serve", [`${buildDir}/server/index.js`], {
+  const child: ChildProcess = spawn("node", ["scripts/serve.js", `${buildDir}/server/index.js`], {
     env: { ...process.env, NODE_ENV: "production", PORT: String(port), HOST: "127.0.0.1", BETTER_AUTH_URL: url, ...env },
     stdio: "ignore",
   });
