@@ -36,6 +36,7 @@ export default [
     route("v1/o/:slug/sites", "routes/api/o/sites.ts"),
     route("v1/o/:slug/models", "routes/api/o/models.ts"),
     route("v1/o/:slug/machines", "routes/api/o/machines.ts"),
+    route("v1/o/:slug/machines/import", "routes/api/o/machines-import.ts"),
     route("v1/o/:slug/machines/:id", "routes/api/o/machine.ts"),
     route("v1/o/:slug/machines/:id/:command", "routes/api/o/machine-command.ts"),
     route("v1/o/:slug/loops/:id/digests", "routes/api/o/loop-digests.ts"),

@@ -99,7 +99,7 @@ async function main() {
   console.log("Building the app…");
   execFileSync("node_modules/.bin/react-router", ["build"], { cwd: ROOT, env: { ...process.env, FLYBALL_BUILD_DIR: "build-bench" }, stdio: "ignore" });
   const appEnv = { NODE_ENV: "production", PORT: String(APP_PORT), HOST: "127.0.0.1", DATABASE_URL, BETTER_AUTH_SECRET: "bench-secret-not-for-production-0123456789abcdef", BETTER_AUTH_URL: `http://127.0.0.1:${APP_PORT}`, DEVICE_RATE_PER_SECOND: "1000000000", DEVICE_RATE_BURST: "1000000000" };
-  start("node", ["scripts/serve.js", "build-bench/server/index.js"], appEnv);
+  start("node", [...(process.env.BENCH_PROFILE ? ["--cpu-prof", `--cpu-prof-dir=${process.env.BENCH_PROFILE}`] : []), "scripts/serve.js", "build-bench/server/index.js"], appEnv);
   start("node_modules/.bin/tsx", ["scripts/bench/baseline-ingest.ts"], { DATABASE_URL, BASELINE_PORT: String(BASE_PORT) });
   await waitFor(`http://127.0.0.1:${APP_PORT}/api/v1/openapi.json`);
   await waitFor(`http://127.0.0.1:${BASE_PORT}/static-config`);

@@ -146,3 +146,21 @@ test("a viewer may not open the bench", async ({ page }) => {
   await expect(page.getByRole("heading", { name: "Not allowed" })).toBeVisible();
   await expect(page.getByRole("link", { name: "Tuning bench" })).toHaveCount(0);
 });
+
+test("gains from the bench are saved as a draft gain set of a loop template", async ({ page }) => {
+  await signInAs(page, "engineer@corvid.example");
+  await page.goto("/o/corvid/bench");
+  // A heater-like model; its SIMC PI gains lie inside the barrel zones' safety envelope.
+  await page.getByLabel("Process gain K").fill("1.5");
+  await page.getByLabel("Time constant τ").fill("300");
+  await page.getByLabel("Dead time θ").fill("20");
+  await page.getByRole("button", { name: "Tune this model" }).click();
+  await expect(page.getByTestId("response-charts")).toBeVisible();
+  const loop = page.getByLabel("Loop template");
+  const zone = await loop.locator("option", { hasText: "zone_1" }).first().getAttribute("value");
+  await loop.selectOption(zone!);
+  await page.getByLabel("Note").fill("Tried on the bench");
+  await page.getByRole("button", { name: "Save as draft gain set" }).click();
+  await expect(page.getByText(/Saved draft v\d+ for zone_1/)).toBeVisible();
+  await page.getByRole("region", { name: "Closed-loop response", exact: true }).screenshot({ path: "data/screenshots/bench-save-draft-desktop.png" });
+});

@@ -1,13 +1,23 @@
 // One request path for every /api/v1/compute/* route: authenticate, read, validate, compute.
 import type { z } from "zod";
+import { bearerSecret, findApiToken } from "~/.server/auth/api-tokens";
 import { getSessionUser } from "~/.server/auth/guards";
+import { getDb } from "~/.server/db/client";
 import { apiError, invalidRequest, readJson } from "~/.server/http/api";
 import { ControlInputError } from "~/lib/control";
 
 export const COMPUTE_JSON_LIMIT = 16 * 1024 * 1024;
 
-/** Any signed-in user may compute; nothing here belongs to an organisation. */
+/**
+ * Any signed-in user, or any live API token of any organisation and scope, may compute;
+ * nothing here belongs to an organisation. A bearer header is never backed by the cookie.
+ */
 export async function requireComputeCaller(request: Request): Promise<Response | null> {
+  const secret = bearerSecret(request);
+  if (secret !== null) {
+    const token = await findApiToken(getDb(), secret);
+    return token ? null : apiError(401, "invalid_token", "The API token is not valid or has been revoked.");
+  }
   const user = await getSessionUser(request);
   if (!user) return apiError(401, "unauthenticated", "Sign in, or send an API token, to use the compute API.");
   return null;

@@ -1,3 +1,4 @@
+import { SaveDraft, type BenchTemplate } from "./save-draft";
 import { useCallback, useEffect, useMemo, useRef, useState, type ReactNode } from "react";
 import { Button } from "~/components/ui/button";
 import { Notice } from "~/components/ui/notice";
@@ -89,7 +90,7 @@ function FormToggle({ value, onChange }: { value: GainForm; onChange: (form: Gai
 }
 
 /** The tuning bench: step test or typed model in, compared proposals and a live closed loop out. */
-export function TuningBench() {
+export function TuningBench({ templates = [] }: { templates?: BenchTemplate[] }) {
   const [units, setUnits] = useState<Units>(DEFAULT_UNITS);
   const [test, setTest] = useState<StepTest | null>(null);
   const [upload, setUpload] = useState<UploadState>({ phase: "idle" });
@@ -466,10 +467,17 @@ export function TuningBench() {
                   )}
                 </div>
                 <div className="flex flex-wrap items-center gap-x-3 gap-y-1.5 border-t border-rule pt-3 lg:col-span-2">
-                  <Button type="button" variant="secondary" disabled>
-                    Save as draft gain set
-                  </Button>
-                  <p className="text-xs text-ink-faint">Saving arrives with loop templates; until then, copy the gains from here.</p>
+                  <SaveDraft
+                    templates={templates}
+                    gains={gainRead?.ok ? gainRead.gains : null}
+                    filterN={settings?.filterN ?? null}
+                    origin={{
+                      rule: manual ? null : (selectedRow?.rule ?? null),
+                      controller: manual ? null : (selectedRow?.kind ?? null),
+                      model,
+                      score: response?.ok ? response.value.score : null,
+                    }}
+                  />
                 </div>
               </div>
             ) : (

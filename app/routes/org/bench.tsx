@@ -1,15 +1,45 @@
+import { data } from "react-router";
 import { requireCapableMember } from "~/.server/auth/guards";
+import { getDb } from "~/.server/db/client";
+import { DraftGainSetSchema, GainSetRuleError, listBenchTemplates, saveDraftGainSet } from "~/.server/tuning/gain-sets";
 import { TuningBench } from "~/components/bench/tuning-bench";
 import { PageHeader } from "~/components/org-shell";
 import type { Route } from "./+types/bench";
 
-// The bench computes in the browser; the loader only proves the caller may tune here.
+// The bench computes in the browser; the loader proves the caller may tune here and lists
+// the loop templates a draft can be saved for.
 export async function loader({ request, params }: Route.LoaderArgs) {
-  await requireCapableMember(request, params.slug, "tuning:use");
-  return null;
+  const membership = await requireCapableMember(request, params.slug, "tuning:use");
+  return { templates: await listBenchTemplates(getDb(), { organisationId: membership.organisation.id }) };
 }
 
-export default function BenchPage() {
+export type SaveDraftResult = { ok: true; version: number; templateKey: string } | { ok: false; message: string; field?: string };
+
+// Saving a draft: the form carries one field, `draft`, holding the JSON of DraftGainSetSchema.
+export async function action({ request, params }: Route.ActionArgs) {
+  const membership = await requireCapableMember(request, params.slug, "tuning:use");
+  const form = await request.formData();
+  let value: unknown;
+  try {
+    value = JSON.parse(String(form.get("draft") ?? ""));
+  } catch {
+    return data<SaveDraftResult>({ ok: false, message: "The draft could not be read." }, { status: 400 });
+  }
+  const parsed = DraftGainSetSchema.safeParse(value);
+  if (!parsed.success) {
+    const issue = parsed.error.issues[0];
+    return data<SaveDraftResult>({ ok: false, message: `${issue?.path.join(".") || "draft"}: ${issue?.message ?? "is not valid"}`, field: String(issue?.path[0] ?? "") }, { status: 400 });
+  }
+  try {
+    const saved = await saveDraftGainSet(getDb(), { organisationId: membership.organisation.id, actor: membership.user.id, input: parsed.data });
+    return data<SaveDraftResult>({ ok: true, version: saved.version, templateKey: saved.templateKey });
+  } catch (error) {
+    if (error instanceof GainSetRuleError) return data<SaveDraftResult>({ ok: false, message: error.message, field: error.field }, { status: error.status });
+    throw error;
+  }
+}
+
+export default function BenchPage({ loaderData }: Route.ComponentProps) {
   return (
     <>
       <PageHeader
@@ -17,7 +47,7 @@ export default function BenchPage() {
         description="Fit a model to a step test, compare every tuning rule on the sampled loop, and try gains before they go anywhere near a machine."
       />
       <div className="px-4 py-5 sm:px-8">
-        <TuningBench />
+        <TuningBench templates={loaderData.templates} />
       </div>
     </>
   );

@@ -1,17 +1,55 @@
 import { useState } from "react";
-import { requireCapableMember } from "~/.server/auth/guards";
+import { data } from "react-router";
+import { z } from "zod";
+import { ApiTokenRuleError, CreateApiTokenSchema, createApiToken, listApiTokens, revokeApiToken } from "~/.server/auth/api-tokens";
+import { requireCapability, requireCapableMember } from "~/.server/auth/guards";
+import { getDb } from "~/.server/db/client";
 import { getDeviceApiDocument } from "~/.server/device-auth/openapi";
 import { env } from "~/.server/env";
+import { ApiTokensPanel, type ApiTokenActionResult } from "~/components/developer/api-tokens-panel";
 import { PageHeader } from "~/components/org-shell";
+import { can } from "~/lib/access/capabilities";
+import { parseForm } from "~/lib/forms";
 import type { Route } from "./+types/developer";
 
 export async function loader({ request, params }: Route.LoaderArgs) {
   const membership = await requireCapableMember(request, params.slug, "registry:manage");
+  const tokens = await listApiTokens(getDb(), { organisationId: membership.organisation.id });
   const doc = getDeviceApiDocument() as unknown as {
     paths: Record<string, Record<string, { summary?: string; description?: string; responses: Record<string, { description: string }> }>>;
     components: { schemas: Record<string, { properties?: Record<string, { type?: string | string[]; description?: string; minimum?: number; maximum?: number }>; required?: string[] }> };
   };
-  return { slug: membership.organisation.slug, doc, baseUrl: env().BETTER_AUTH_URL };
+  return { slug: membership.organisation.slug, doc, baseUrl: env().BETTER_AUTH_URL, tokens, manageTokens: can(membership.role, "members:manage") };
+}
+
+const IntentSchema = z.object({ intent: z.enum(["create-token", "revoke-token"]) });
+const IdSchema = z.object({ id: z.uuid() });
+
+function result(body: ApiTokenActionResult, status = 200) {
+  return data<ApiTokenActionResult>(body, { status });
+}
+
+export async function action({ request, params }: Route.ActionArgs) {
+  const membership = requireCapability(await requireCapableMember(request, params.slug, "registry:manage"), "members:manage");
+  const form = await request.formData();
+  const intent = IntentSchema.safeParse(Object.fromEntries(form));
+  if (!intent.success) return result({ ok: false, message: "Unknown action." }, 400);
+  const db = getDb();
+  try {
+    if (intent.data.intent === "create-token") {
+      const parsed = parseForm(CreateApiTokenSchema, form);
+      if (!parsed.ok) return result({ ok: false, message: "Check the token's name and scope.", errors: parsed.errors }, 400);
+      const created = await createApiToken(db, membership, parsed.data);
+      return result({ ok: true, message: "Token created.", created: { name: created.name, secret: created.secret } });
+    }
+    const parsed = parseForm(IdSchema, form);
+    if (!parsed.ok) return result({ ok: false, message: "No token given." }, 400);
+    await revokeApiToken(db, membership, parsed.data.id);
+    return result({ ok: true, message: "Token revoked. Requests with it are refused from now on." });
+  } catch (error) {
+    if (error instanceof ApiTokenRuleError) return result({ ok: false, message: error.message }, error.status);
+    throw error;
+  }
 }
 
 function Copyable({ label, text }: { label: string; text: string }) {
@@ -27,8 +65,8 @@ function Copyable({ label, text }: { label: string; text: string }) {
   );
 }
 
-export default function Developer({ loaderData }: Route.ComponentProps) {
-  const { slug, doc, baseUrl } = loaderData;
+export default function Developer({ loaderData, actionData }: Route.ComponentProps) {
+  const { slug, doc, baseUrl, tokens, manageTokens } = loaderData;
   const digest = doc.components.schemas.Digest;
   const tokenSnippet = `// Node 20, jose: a fresh token for every request
 import { SignJWT, importJWK } from "jose";
@@ -47,9 +85,12 @@ const token = await new SignJWT({})
 # → {"accepted":1,"duplicates":0,"rejected":[]}`;
   return (
     <>
-      <PageHeader title="Developer" description={<>The device API your controllers speak. The machine-readable contract is <a className="text-accent hover:underline" href="/api/v1/openapi.json">/api/v1/openapi.json</a> (OpenAPI 3.1); configuration signing keys are at <a className="text-accent hover:underline" href={`/api/v1/o/${slug}/jwks.json`}>/api/v1/o/{slug}/jwks.json</a>.</>} />
+      <PageHeader title="Developer" description={<>API tokens for your own systems, and the device API your controllers speak. The machine-readable contract is <a className="text-accent hover:underline" href="/api/v1/openapi.json">/api/v1/openapi.json</a> (OpenAPI 3.1); configuration signing keys are at <a className="text-accent hover:underline" href={`/api/v1/o/${slug}/jwks.json`}>/api/v1/o/{slug}/jwks.json</a>.</>} />
+      <div className="border-b border-rule px-5 py-6 sm:px-8">
+        <ApiTokensPanel tokens={tokens} manage={manageTokens} slug={slug} actionData={actionData} />
+      </div>
       <div className="grid gap-8 px-5 py-6 sm:px-8 xl:grid-cols-2">
-        <section className="space-y-4">
+        <section className="min-w-0 space-y-4">
           <h2 className="font-semibold">Worked example: post one digest</h2>
           <ol className="list-decimal space-y-1 pl-5 text-sm text-ink-soft">
             <li>Register the machine and note its one-time enrolment code.</li>
@@ -59,7 +100,7 @@ const token = await new SignJWT({})
           <Copyable label="Sign a device token" text={tokenSnippet} />
           <Copyable label="Request" text={curl} />
         </section>
-        <section className="space-y-4">
+        <section className="min-w-0 space-y-4">
           <h2 className="font-semibold">Endpoints</h2>
           {Object.entries(doc.paths).map(([path, methods]) =>
             Object.entries(methods).map(([method, op]) => (

@@ -46,7 +46,10 @@ export default function Machines({ loaderData }: Route.ComponentProps) {
         description="Every registered machine, its loops' health and whether its device is enrolled."
         action={
           canManage ? (
-            <Link to="new" className={buttonClass("primary")}>Register machine</Link>
+            <div className="flex flex-wrap gap-2">
+              <Link to="import" className={buttonClass("secondary")}>Import from CSV</Link>
+              <Link to="new" className={buttonClass("primary")}>Register machine</Link>
+            </div>
           ) : null
         }
       />

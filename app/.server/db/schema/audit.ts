@@ -10,7 +10,7 @@ export const auditEvent = pgTable(
       .notNull()
       .references(() => organisation.id, { onDelete: "cascade" }),
     id: uuid("id").notNull().default(sql`gen_random_uuid()`),
-    /** user id, `device:<id>` or `system` */
+    /** user id, `device:<id>`, `token:<id>` (an API token) or `system` */
     actor: text("actor").notNull(),
     action: text("action").notNull(),
     targetType: text("target_type").notNull(),

@@ -5,3 +5,5 @@ export * from "./customers";
 export * from "./fleet";
 export * from "./device";
 export * from "./digests";
+export * from "./api-tokens";
+export * from "./gain-sets";
