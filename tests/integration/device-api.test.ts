@@ -54,7 +54,10 @@ describe("enrol → post → pull → ack", () => {
     expect(config.status).toBe(200);
     const etag = config.headers.get("etag");
     expect(etag).toBeTruthy();
-    const { jws, jwksUrl } = await config.json();
+    expect(config.headers.get("content-type")).toBe("application/jose");
+    const jws = await config.text();
+    const jwksUrl = /<([^>]+)>; rel="jwks"/.exec(config.headers.get("link") ?? "")![1];
+    expect(jwksUrl).toMatch(/^\/api\/v1\/o\/[a-z0-9-]+\/jwks\.json$/);
     const jwks = await (await fetch(`${APP_URL}${jwksUrl}`)).json();
     const kid = JSON.parse(Buffer.from(jws.split(".")[0], "base64url").toString()).kid;
     const jwk = jwks.keys.find((k: { kid: string }) => k.kid === kid);
@@ -67,6 +70,13 @@ describe("enrol → post → pull → ack", () => {
 
     const again = await client.getConfig(etag!);
     expect(again.status).toBe(304);
+
+    // Asked for JSON, the same JWS comes wrapped with its expiry and the JWKS address.
+    const wrapped = await fetch(`${APP_URL}/api/v1/device/config`, { headers: { authorization: `Bearer ${await client.token()}`, accept: "application/json" } });
+    expect(wrapped.status).toBe(200);
+    const wrappedBody = await wrapped.json();
+    expect(wrappedBody.jwksUrl).toBe(jwksUrl);
+    expect(wrappedBody.jws.split(".")).toHaveLength(3);
 
     const ack = await client.ack({ loop: "temp", version: 1, status: "applied" });
     expect(ack.status).toBe(200);

@@ -57,7 +57,18 @@ export function getDeviceApiDocument() {
       "The gains assigned to this machine's loops, as a JWS signed by the organisation's Ed25519 key (keys at /api/v1/o/{slug}/jwks.json). Each loop carries a version that only increases; the JWS expires. Send If-None-Match with the last ETag to get 304 when nothing changed.",
     security: [{ [bearer.name]: [] }],
     request: { headers: z.object({ "if-none-match": z.string().optional() }) },
-    responses: { 200: json(ConfigResponseSchema, "The configuration. The JWS payload holds iss (flyball:<slug>), aud (device id), sub (machine id), iat, exp and loops: [{key, version, form, gains {kp, ki, kd}, outputMin, outputMax, samplePeriod}]."), 304: { description: "Unchanged since the ETag given." }, 401: refused },
+    responses: {
+      200: {
+        description:
+          "The configuration as a compact JWS (application/jose; Link header rel=\"jwks\" gives the key set). Its payload holds iss (flyball:<slug>), aud (device id), sub (machine id), iat, exp and loops: [{key, version, form, gains {kp, ki, kd}, outputMin, outputMax, samplePeriod}]. With Accept: application/json the JWS comes wrapped as a ConfigResponse.",
+        content: {
+          "application/jose": { schema: { type: "string", description: "Compact JWS (EdDSA, typ flyball-config+jwt)." } },
+          "application/json": { schema: ConfigResponseSchema },
+        },
+      },
+      304: { description: "Unchanged since the ETag given." },
+      401: refused,
+    },
   });
   registry.registerPath({
     method: "post",
