@@ -1,5 +1,8 @@
 // JSON answers of the device and management APIs: `{"error": {"code", "message", "issues"?}}`.
 import type { z } from "zod";
+import { readLimitedText } from "~/.server/http/body";
+
+export { readLimitedText };
 
 const JSON_HEADERS = { "content-type": "application/json; charset=utf-8", "cache-control": "no-store" };
 
@@ -17,26 +20,6 @@ export function zodIssues(error: z.ZodError): Issue[] {
   return error.issues.map((i) => ({ path: i.path.map((p) => (typeof p === "symbol" ? String(p) : p)), message: i.message }));
 }
 
-/** Read a body of at most `limit` bytes; null when it is larger (the caller answers 413). */
-export async function readLimitedText(request: Request, limit: number): Promise<string | null> {
-  const declared = Number(request.headers.get("content-length"));
-  if (Number.isFinite(declared) && declared > limit) return null;
-  if (!request.body) return "";
-  const reader = request.body.getReader();
-  const chunks: Uint8Array[] = [];
-  let size = 0;
-  for (;;) {
-    const { done, value } = await reader.read();
-    if (done) break;
-    size += value.byteLength;
-    if (size > limit) {
-      await reader.cancel().catch(() => {});
-      return null;
-    }
-    chunks.push(value);
-  }
-  return Buffer.concat(chunks).toString("utf8");
-}
 
 /** Parse JSON, or answer 400 / 413 / 415. */
 export async function readJsonBody(request: Request, limit: number): Promise<{ ok: true; value: unknown } | { ok: false; response: Response }> {

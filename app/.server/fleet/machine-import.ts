@@ -4,6 +4,7 @@
 import { and, eq, inArray } from "drizzle-orm";
 import { recordAudit } from "~/.server/audit/record-audit";
 import type { Db } from "~/.server/db/client";
+import { readLimitedBytes } from "~/.server/http/body";
 import { machine } from "~/.server/db/schema";
 import {
   MAX_IMPORT_BYTES,
@@ -94,25 +95,6 @@ export type ImportUpload =
 
 const tooLarge = { ok: false, status: 413, code: "payload_too_large", message: `The file is larger than ${MAX_IMPORT_BYTES / 1024 / 1024} MB; split it into smaller files.` } as const;
 
-async function readLimitedBytes(request: Request, limit: number): Promise<Uint8Array | null> {
-  const declared = Number(request.headers.get("content-length"));
-  if (Number.isFinite(declared) && declared > limit) return null;
-  if (!request.body) return new Uint8Array();
-  const reader = request.body.getReader();
-  const chunks: Uint8Array[] = [];
-  let size = 0;
-  for (;;) {
-    const { done, value } = await reader.read();
-    if (done) break;
-    size += value.byteLength;
-    if (size > limit) {
-      await reader.cancel().catch(() => {});
-      return null;
-    }
-    chunks.push(value);
-  }
-  return Buffer.concat(chunks);
-}
 
 /**
  * The CSV of an upload: multipart with a `file` (and `mode`) field, or a text/csv body whose

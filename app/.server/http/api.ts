@@ -1,9 +1,10 @@
 // JSON answers for resource routes: `{"error": {"code", "message", "issues"?}}` on failure.
 import type { z } from "zod";
+import { apiError, zodIssues } from "~/.server/device-auth/http";
+import { readLimitedText } from "./body";
 
-export function apiError(status: number, code: string, message: string, issues?: unknown, headers?: HeadersInit): Response {
-  return Response.json({ error: { code, message, ...(issues === undefined ? {} : { issues }) } }, { status, headers });
-}
+// One JSON error shape for every resource route.
+export { apiError };
 
 /** One sentence naming the first bad field, e.g. "plant.timeConstant: must be greater than 0". */
 export function describeIssues(error: z.ZodError): string {
@@ -15,30 +16,16 @@ export function describeIssues(error: z.ZodError): string {
 }
 
 export function invalidRequest(error: z.ZodError): Response {
-  return apiError(400, "invalid_request", describeIssues(error), error.issues);
+  return apiError(400, "invalid_request", describeIssues(error), zodIssues(error));
 }
 
 export class BodyTooLargeError extends Error {}
 
-/** Read a request body as text, refusing more than `limit` bytes without buffering it all. */
+/** Read a request body as text; throws BodyTooLargeError past `limit` bytes. */
 export async function readBodyText(request: Request, limit: number): Promise<string> {
-  const declared = Number(request.headers.get("content-length") ?? "0");
-  if (declared > limit) throw new BodyTooLargeError();
-  if (!request.body) return "";
-  const reader = request.body.getReader();
-  const chunks: Uint8Array[] = [];
-  let size = 0;
-  for (;;) {
-    const { done, value } = await reader.read();
-    if (done) break;
-    size += value.byteLength;
-    if (size > limit) {
-      await reader.cancel();
-      throw new BodyTooLargeError();
-    }
-    chunks.push(value);
-  }
-  return new TextDecoder().decode(Buffer.concat(chunks));
+  const text = await readLimitedText(request, limit);
+  if (text === null) throw new BodyTooLargeError();
+  return text;
 }
 
 /** Parse a JSON body with a size limit; answers are Responses for the caller to return. */
