@@ -78,7 +78,7 @@ function timeBest(fn: () => number, repeats: number): { seconds: number; value: 
   return { seconds: best, value };
 }
 
-function runC(repeats: number): { seconds: number; value: number; checksum: number } | string {
+function runC(repeats: number): { seconds: number; value: number; checksum: number; metrics: number } | string {
   const outDir = join(here, "out");
   mkdirSync(outDir, { recursive: true });
   const binary = join(outDir, "pid-loop");
@@ -88,8 +88,8 @@ function runC(repeats: number): { seconds: number; value: number; checksum: numb
   const args = [loop.K, loop.tau, loop.theta, loop.h, loop.kp, loop.ki, loop.kd, loop.N, loop.umin, loop.umax, SAMPLES, repeats];
   const run = spawnSync(binary, args.map(String), { encoding: "utf8" });
   if (run.error || run.status !== 0) return `skipped: the C program did not run (${run.error?.message ?? run.stderr})`;
-  const [seconds, value, checksum] = run.stdout.trim().split(/\s+/).map(Number);
-  return { seconds, value, checksum };
+  const [seconds, value, checksum, metrics] = run.stdout.trim().split(/\s+/).map(Number);
+  return { seconds, value, checksum, metrics };
 }
 
 function formatRate(samplesPerSecond: number): string {
@@ -109,10 +109,12 @@ const kernelCoefficients = resolvePidCoefficients({
 const kernelSetpoint = scheduleFrom(Array.from({ length: SAMPLES / 20000 }, (_, j) => ({ time: j * 20000 * loop.h, value: setpoints[j & 3] })));
 const kernelLoad = scheduleFrom(Array.from({ length: SAMPLES / 50000 }, (_, j) => ({ time: j * 50000 * loop.h, value: j & 1 ? 0.1 : 0 })));
 let kernelChecksum = 0;
+let kernelMetrics = 0;
 
 function runKernelLoop(): number {
   const totals = runFirstOrderLoop(kernelPlant, kernelCoefficients, SAMPLES, kernelSetpoint, kernelLoad, { min: -Infinity, max: Infinity }, null, {});
   kernelChecksum = totals.sumY;
+  kernelMetrics = totals.iae + totals.ise + totals.itae + totals.peakAbsControl + totals.saturated + totals.held;
   return totals.lastY;
 }
 
@@ -161,6 +163,8 @@ function benchLoop(): void {
       `  ${label}: final y differs from C by ${difference.toExponential(2)}, Σy by ${sumDifference.toExponential(2)} (relative) → ${agree ? "same loop (≤ 1e-9)" : "MISMATCH: the comparison is not like for like"}`,
     );
   }
+  const metricDifference = Math.abs(kernelMetrics - c.metrics) / Math.max(1, Math.abs(c.metrics));
+  console.log(`  fused loop: IAE + ISE + ITAE + peak |u| + saturated + held differs from C by ${metricDifference.toExponential(2)} (relative) → ${metricDifference <= 1e-9 ? "same bookkeeping" : "MISMATCH"}`);
   const kernelRatio = kernelBest / cBest;
   const stepperRatio = stepperBest / cBest;
   console.log(`  ratio fused loop / C time: ${kernelRatio.toFixed(2)}× (target ≤ 3×: ${kernelRatio <= 3 ? "met" : "not met"})`);
