@@ -90,7 +90,8 @@ export const DEMO_FLEETS: Record<string, DemoFleet> = {
           outputMax: 100,
           defaultGains: { kp: 3.33, ki: 2.08, kd: 0 },
           gainEnvelope: { kp: [0.1, 20], ki: [0, 20], kd: [0, 2] },
-          thresholds: { acceptableAmplitude: 1, ultimatePeriod: 1.6, oscillationPerHour: 30 },
+          // Hägglund 1995 (memory): oscillation is more than 10 load detections within 50·Tu, i.e. 720/Tu per hour.
+          thresholds: { acceptableAmplitude: 1, ultimatePeriod: 1.6, oscillationPerHour: 450 },
         },
         {
           key: "melt_pressure",
@@ -101,7 +102,7 @@ export const DEMO_FLEETS: Record<string, DemoFleet> = {
           outputMax: 100,
           defaultGains: { kp: 1.25, ki: 0.3125, kd: 0 },
           gainEnvelope: { kp: [0.05, 10], ki: [0, 5], kd: [0, 5] },
-          thresholds: { acceptableAmplitude: 3, ultimatePeriod: 4, oscillationPerHour: 30 },
+          thresholds: { acceptableAmplitude: 3, ultimatePeriod: 4, oscillationPerHour: 180 },
         },
       ],
     },
@@ -127,7 +128,7 @@ export const DEMO_FLEETS: Record<string, DemoFleet> = {
           outputMin: 0,
           outputMax: 100,
           defaultGains: { kp: 1.25, ki: 0.83, kd: 0 },
-          thresholds: { acceptableAmplitude: 0.5, ultimatePeriod: 1.5, oscillationPerHour: 30 },
+          thresholds: { acceptableAmplitude: 0.5, ultimatePeriod: 1.5, oscillationPerHour: 480 },
         },
         {
           key: "pressure",
@@ -138,7 +139,7 @@ export const DEMO_FLEETS: Record<string, DemoFleet> = {
           outputMax: 100,
           defaultGains: { kp: 30, ki: 10, kd: 0 },
           gainEnvelope: { kp: [1, 100], ki: [0, 50], kd: [0, 10] },
-          thresholds: { acceptableAmplitude: 0.1, ultimatePeriod: 3, oscillationPerHour: 30 },
+          thresholds: { acceptableAmplitude: 0.1, ultimatePeriod: 3, oscillationPerHour: 240 },
         },
       ],
     },
