@@ -128,7 +128,8 @@ export const DEMO_FLEETS: Record<string, DemoFleet> = {
           outputMin: 0,
           outputMax: 100,
           defaultGains: { kp: 1.25, ki: 0.83, kd: 0 },
-          thresholds: { acceptableAmplitude: 0.5, ultimatePeriod: 1.5, oscillationPerHour: 480 },
+          // a ≈ 1 % of a 0–150 m³/h range (REFERENCES.md, Hägglund 1995: a is 1 % of range).
+          thresholds: { acceptableAmplitude: 1.5, ultimatePeriod: 1.5, oscillationPerHour: 480 },
         },
         {
           key: "pressure",
