@@ -9,14 +9,19 @@
 export type HealthBand = "steady" | "watch" | "act" | "silent";
 export const HEALTH_BANDS: readonly HealthBand[] = ["steady", "watch", "act", "silent"];
 
+/** Limits at which health findings are raised; stored per loop template. */
 export type HealthThresholdSettings = {
+  /** Acceptable error amplitude a in process units (Hägglund's IAE limit uses it). */
   acceptableAmplitude: number;
   saturationWatch: number;
   saturationAct: number;
   clampWatch: number;
   clampAct: number;
+  /** Load-disturbance detections per hour at which oscillation is flagged. */
   oscillationPerHour: number;
+  /** Error RMS relative to the acceptable amplitude at which drift is flagged. */
   errRmsWatch: number;
+  /** Seconds without a digest after which a loop is silent. */
   silentAfter: number;
 };
 

@@ -17,6 +17,7 @@ import {
 } from "drizzle-orm/pg-core";
 import { organisation } from "./auth";
 import { site } from "./customers";
+import type { HealthThresholdSettings } from "~/lib/health/assess";
 
 const tenant = () =>
   text("organisation_id")
@@ -28,21 +29,9 @@ export type StoredGains = { kp: number; ki: number; kd: number };
 /** Allowed range of each gain; a gain set outside it is refused. */
 export type GainEnvelope = { kp: [number, number]; ki: [number, number]; kd: [number, number] };
 /** Limits at which health findings are raised (practice defaults, per template). */
-export type HealthThresholds = {
-  /** Acceptable error amplitude a in process units (Hägglund's IAE limit uses it). */
-  acceptableAmplitude: number;
+export type HealthThresholds = HealthThresholdSettings & {
   /** Ultimate period estimate Tu in seconds for the load-disturbance limit. */
   ultimatePeriod: number;
-  saturationWatch: number;
-  saturationAct: number;
-  clampWatch: number;
-  clampAct: number;
-  /** Load-disturbance detections per hour at which oscillation is flagged. */
-  oscillationPerHour: number;
-  /** Error RMS relative to the acceptable amplitude at which drift is flagged. */
-  errRmsWatch: number;
-  /** Seconds without a digest after which a loop is silent. */
-  silentAfter: number;
 };
 
 export const machineModel = pgTable(
