@@ -27,6 +27,19 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 
 const selectClass = "rounded-md border border-rule bg-white px-2 py-1.5 text-sm";
 
+/** One labelled filter of the machines table; the empty option means "no filter". */
+function FilterSelect({ label, name, value, anyLabel, options }: { label: string; name: string; value: string | undefined; anyLabel: string; options: { value: string; label: string }[] }) {
+  return (
+    <label className="flex flex-col text-xs text-ink-faint">
+      {label}
+      <select name={name} defaultValue={value ?? ""} className={selectClass}>
+        <option value="">{anyLabel}</option>
+        {options.map((o) => <option key={o.value} value={o.value}>{o.label}</option>)}
+      </select>
+    </label>
+  );
+}
+
 export default function Machines({ loaderData }: Route.ComponentProps) {
   const { machines, options, query, invalidQuery, canManage, slug } = loaderData;
   const [params] = useSearchParams();
@@ -62,34 +75,10 @@ export default function Machines({ loaderData }: Route.ComponentProps) {
             Search
             <input type="search" name="q" defaultValue={query.q ?? ""} placeholder="Serial, firmware, site…" className={`${selectClass} w-48`} />
           </label>
-          <label className="flex flex-col text-xs text-ink-faint">
-            Customer
-            <select name="customerId" defaultValue={query.customerId ?? ""} className={selectClass}>
-              <option value="">All customers</option>
-              {options.customers.map((c) => <option key={c.id} value={c.id}>{c.name}</option>)}
-            </select>
-          </label>
-          <label className="flex flex-col text-xs text-ink-faint">
-            Site
-            <select name="siteId" defaultValue={query.siteId ?? ""} className={selectClass}>
-              <option value="">All sites</option>
-              {sites.map((s) => <option key={s.id} value={s.id}>{s.name}</option>)}
-            </select>
-          </label>
-          <label className="flex flex-col text-xs text-ink-faint">
-            Model
-            <select name="modelId" defaultValue={query.modelId ?? ""} className={selectClass}>
-              <option value="">All models</option>
-              {options.models.map((m) => <option key={m.id} value={m.id}>{m.name}</option>)}
-            </select>
-          </label>
-          <label className="flex flex-col text-xs text-ink-faint">
-            Health
-            <select name="health" defaultValue={query.health ?? ""} className={selectClass}>
-              <option value="">Any health</option>
-              {HEALTH_BANDS.map((b) => <option key={b} value={b}>{HEALTH_LABELS[b]}</option>)}
-            </select>
-          </label>
+          <FilterSelect label="Customer" name="customerId" value={query.customerId} anyLabel="All customers" options={options.customers.map((c) => ({ value: c.id, label: c.name }))} />
+          <FilterSelect label="Site" name="siteId" value={query.siteId} anyLabel="All sites" options={sites.map((s) => ({ value: s.id, label: s.name }))} />
+          <FilterSelect label="Model" name="modelId" value={query.modelId} anyLabel="All models" options={options.models.map((m) => ({ value: m.id, label: m.name }))} />
+          <FilterSelect label="Health" name="health" value={query.health} anyLabel="Any health" options={HEALTH_BANDS.map((b) => ({ value: b, label: HEALTH_LABELS[b] }))} />
           <label className="flex flex-col text-xs text-ink-faint">
             Per page
             <select name="pageSize" defaultValue={String(query.pageSize)} className={selectClass}>
