@@ -14,7 +14,6 @@
 import { createReadStream, statSync } from "node:fs";
 import http from "node:http";
 import path from "node:path";
-import { Readable } from "node:stream";
 import { pathToFileURL } from "node:url";
 import { createRequestListener } from "@react-router/node";
 
@@ -46,19 +45,41 @@ function deviceRoutes() {
 }
 const lean = deviceRoutes();
 
-/** @param {import("node:http").IncomingMessage} req @param {URL} url */
-function toRequest(req, url) {
-  const headers = new Headers();
-  for (let i = 0; i < req.rawHeaders.length; i += 2) headers.append(req.rawHeaders[i], req.rawHeaders[i + 1]);
-  const hasBody = req.method !== "GET" && req.method !== "HEAD";
-  return new Request(url, {
-    method: req.method,
-    headers,
-    body: hasBody ? Readable.toWeb(req) : undefined,
-    // Node's fetch needs duplex for a streamed body.
-    duplex: hasBody ? "half" : undefined,
+// Device request bodies are small (the routes allow at most 256 KiB): read them into memory
+// here instead of through a web stream. A body over LEAN_BODY_LIMIT is drained (so the client
+// sees our answer, not a broken pipe) and answered 413 without reaching the route.
+const LEAN_BODY_LIMIT = 1024 * 1024;
+const DRAIN_CEILING = 64 * 1024 * 1024;
+
+/** @param {import("node:http").IncomingMessage} req @returns {Promise<Buffer | null>} null when too large */
+function readBody(req) {
+  return new Promise((resolve, reject) => {
+    /** @type {Buffer[]} */
+    const chunks = [];
+    let size = 0;
+    req.on("data", (chunk) => {
+      size += chunk.length;
+      if (size <= LEAN_BODY_LIMIT) chunks.push(chunk);
+      else if (size > DRAIN_CEILING) req.destroy();
+    });
+    req.on("end", () => resolve(size > LEAN_BODY_LIMIT ? null : Buffer.concat(chunks, size)));
+    req.on("error", reject);
+    req.on("close", () => {
+      if (!req.complete) resolve(null);
+    });
   });
 }
+
+/** @param {import("node:http").IncomingMessage} req @param {URL} url @param {Buffer | undefined} body */
+function toRequest(req, url, body) {
+  const headers = new Headers();
+  for (let i = 0; i < req.rawHeaders.length; i += 2) headers.append(req.rawHeaders[i], req.rawHeaders[i + 1]);
+  return new Request(url, { method: req.method, headers, body });
+}
+
+// Responses made by jsonResponse (app/.server/device-auth/http.ts) carry their body text under
+// this symbol, so it can be written without going through the Response's body stream.
+const RAW_BODY = Symbol.for("flyball.rawBody");
 
 /** @param {import("node:http").ServerResponse} res @param {Response} response */
 async function sendResponse(res, response) {
@@ -69,14 +90,27 @@ async function sendResponse(res, response) {
   });
   const cookies = response.headers.getSetCookie();
   if (cookies.length) headers["set-cookie"] = cookies;
-  const body = response.body ? Buffer.from(await response.arrayBuffer()) : undefined;
+  const raw = /** @type {any} */ (response)[RAW_BODY];
+  const body = typeof raw === "string" ? Buffer.from(raw) : response.body ? Buffer.from(await response.arrayBuffer()) : undefined;
   if (body) headers["content-length"] = String(body.length);
   res.writeHead(response.status, headers);
   res.end(body);
 }
 
+/** @param {any} module @param {import("node:http").IncomingMessage} req @param {import("node:http").ServerResponse} res @param {URL} url */
 async function serveLean(module, req, res, url) {
-  const request = toRequest(req, url);
+  let body;
+  if (req.method !== "GET" && req.method !== "HEAD") {
+    const declared = Number(req.headers["content-length"]);
+    body = declared > DRAIN_CEILING ? null : await readBody(req);
+    if (body === null) {
+      const tooLarge = JSON.stringify({ error: { code: "payload_too_large", message: `The body is larger than ${LEAN_BODY_LIMIT} bytes.` } });
+      res.writeHead(413, { "content-type": "application/json; charset=utf-8", "content-length": Buffer.byteLength(tooLarge), connection: "close" });
+      res.end(tooLarge);
+      return;
+    }
+  }
+  const request = toRequest(req, url, body);
   const handler = req.method === "GET" || req.method === "HEAD" ? module.loader : module.action;
   let result;
   try {

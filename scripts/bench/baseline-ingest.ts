@@ -1,7 +1,10 @@
 // The bare baseline for the ingest bench: node:http + pg, no auth, no validation. It inserts
 // the same rows into the same digest table (one multi-row INSERT per request) and answers
 // config pulls with 304 after the same loop lookup, or (GET /static-config) with no work at all.
+// GET /verified-config checks the device token's signature and claims with jose and nothing
+// else (no replay check, no database per request): the floor of any device API that verifies.
 import http from "node:http";
+import { decodeProtectedHeader, importJWK, jwtVerify, type CryptoKey } from "jose";
 import pg from "pg";
 
 const port = Number(process.env.BASELINE_PORT ?? 3301);
@@ -11,10 +14,32 @@ const TYPES = ["uuid", "int4", "timestamptz", "timestamptz", "int4", "int4", "fl
 const SQL = `insert into digest (organisation_id, ${COLS.join(", ")}) select $1, * from unnest(${TYPES.map((t, i) => `$${i + 2}::${t}[]`).join(", ")}) on conflict do nothing`;
 const FIELDS = ["loopId", "seq", "windowStart", "windowEnd", "samples", "gainVersion", "spMean", "pvMean", "errMean", "errRms", "errMaxAbs", "iae", "ise", "uMean", "uStd", "satHighFrac", "satLowFrac", "intClampFrac", "oscCount", "spChanges"];
 
+const keys = new Map<string, Promise<{ alg: string; key: CryptoKey | Uint8Array }>>();
+function keyOf(kid: string) {
+  let key = keys.get(kid);
+  if (!key) {
+    key = pool.query<{ alg: string; public_jwk: Record<string, string> }>("select alg, public_jwk from device where id = $1", [kid]).then(async ({ rows: [row] }) => ({ alg: row.alg, key: await importJWK({ ...row.public_jwk, alg: row.alg }, row.alg) }));
+    keys.set(kid, key);
+  }
+  return key;
+}
+
+async function verified(req: http.IncomingMessage): Promise<boolean> {
+  const token = (req.headers.authorization ?? "").slice("Bearer ".length);
+  const kid = decodeProtectedHeader(token).kid!;
+  const { alg, key } = await keyOf(kid);
+  await jwtVerify(token, key, { algorithms: [alg], audience: "flyball-device", issuer: kid, requiredClaims: ["iat", "exp", "jti"] });
+  return true;
+}
+
 http
   .createServer((req, res) => {
     if (req.method === "GET" && req.url === "/static-config") {
       res.writeHead(304, { etag: '"x"' }).end();
+      return;
+    }
+    if (req.method === "GET" && req.url === "/verified-config") {
+      verified(req).then(() => res.writeHead(304, { etag: '"x"' }).end(), () => res.writeHead(401).end());
       return;
     }
     if (req.method === "GET") {

@@ -298,3 +298,95 @@ describe("digest ingest", () => {
     expect(responses.every((r) => r.status === 200 || r.status === 429)).toBe(true);
   });
 });
+
+// Requests that arrive together share one statement (app/.server/db/batch.ts): each must still
+// be judged on its own, in the order it would have been judged alone.
+describe("requests that arrive together", () => {
+  let more: Fleet;
+  const enrolFrom = async (index: number) => {
+    const client = new DeviceClient(APP_URL, await createDeviceIdentity());
+    expect((await client.enrol(more.machines[index].enrolmentCode)).status).toBe(201);
+    return client;
+  };
+  beforeAll(async () => {
+    more = await createTestFleet(db(), { organisationId: team.organisation.id, machinesPerSite: 6 });
+  });
+
+  it("stores concurrent posts from many devices, each digest once and counted for its own request", async () => {
+    const clients = await Promise.all([0, 1, 2, 3, 4, 5].map(enrolFrom));
+    const responses = await Promise.all(
+      clients.flatMap((c) => Array.from({ length: 5 }, (_, k) => c.postDigests([sampleDigest("temp", 10 + k, minutesAgo(40 - k)), sampleDigest("speed", 10 + k, minutesAgo(40 - k))]))),
+    );
+    expect(responses.map((r) => r.status)).toEqual(Array(30).fill(200));
+    for (const body of await Promise.all(responses.map((r) => r.json()))) expect(body).toEqual({ accepted: 2, duplicates: 0, rejected: [] });
+    for (let i = 0; i < 6; i++) expect(await digestCount(more.machines[i].id)).toBe(10);
+  });
+
+  it("accepts a token sent twice at once only once", async () => {
+    const client = await enrolFrom(6);
+    const token = await client.token();
+    const responses = await Promise.all([client.postDigests([sampleDigest("temp", 1, minutesAgo(9))], token), client.postDigests([sampleDigest("temp", 2, minutesAgo(8))], token)]);
+    expect(responses.map((r) => r.status).sort()).toEqual([200, 401]);
+    const refused = responses.find((r) => r.status === 401)!;
+    expect((await refused.json()).error.code).toBe("token_replayed");
+    expect(await digestCount(more.machines[6].id)).toBe(1);
+  });
+
+  it("stores a digest posted in two requests at once only once", async () => {
+    const client = await enrolFrom(7);
+    const digest = sampleDigest("speed", 5, minutesAgo(20));
+    const bodies = await Promise.all([client.postDigests([digest]), client.postDigests([digest]), client.postDigests([digest])].map(async (r) => (await r).json()));
+    expect(bodies.reduce((n, b) => n + b.accepted, 0)).toBe(1);
+    expect(bodies.reduce((n, b) => n + b.duplicates, 0)).toBe(2);
+    expect(await digestCount(more.machines[7].id)).toBe(1);
+  });
+
+  it("does not let a replayed request take a digest from a fresh one", async () => {
+    const client = await enrolFrom(8);
+    const used = await client.token();
+    expect((await client.postDigests([sampleDigest("temp", 500, minutesAgo(30))], used)).status).toBe(200);
+    const before = await digestCount(more.machines[8].id);
+    const digest = sampleDigest("temp", 501, minutesAgo(29));
+    // The replay comes first in the batch; the fresh request must still store the digest.
+    const [replay, fresh] = await Promise.all([client.postDigests([digest], used), client.postDigests([digest])]);
+    expect(replay.status).toBe(401);
+    expect(fresh.status).toBe(200);
+    expect(await fresh.json()).toEqual({ accepted: 1, duplicates: 0, rejected: [] });
+    expect(await digestCount(more.machines[8].id)).toBe(before + 1);
+  });
+
+  it("answers a revoked device 401 even when its body is bad", async () => {
+    const client = await enrolFrom(9);
+    const owner = await signIn(team.people[0].email);
+    expect((await postJson(`/api/v1/o/${team.organisation.slug}/machines/${more.machines[9].id}/revoke-device`, {}, owner)).status).toBe(200);
+    const garbage = await fetch(`${APP_URL}/api/v1/device/digests`, { method: "POST", headers: { "content-type": "application/json", authorization: `Bearer ${await client.token()}` }, body: "[1,2" });
+    expect(garbage.status).toBe(401);
+    expect((await garbage.json()).error.code).toBe("device_revoked");
+  });
+
+  it("uses up a token whose body is refused", async () => {
+    const client = await enrolFrom(10);
+    const token = await client.token();
+    expect((await client.postDigests([], token)).status).toBe(400);
+    const again = await client.postDigests([sampleDigest("temp", 900, minutesAgo(5))], token);
+    expect(again.status).toBe(401);
+    expect((await again.json()).error.code).toBe("token_replayed");
+  });
+
+  it("answers 200 with the new version, not 304, once a loop's gains change", async () => {
+    const client = await enrolFrom(11);
+    const first = await client.getConfig();
+    const etag = first.headers.get("etag")!;
+    expect((await client.getConfig(etag)).status).toBe(304);
+    await db()
+      .update(loop)
+      .set({ gains: { kp: 7, ki: 0.05, kd: 0 }, configVersion: 2 })
+      .where(and(eq(loop.machineId, more.machines[11].id), eq(loop.key, "temp")));
+    const changed = await client.getConfig(etag);
+    expect(changed.status).toBe(200);
+    expect(changed.headers.get("etag")).not.toBe(etag);
+    const temp = decodeJwt(await changed.text()).loops as { key: string; version: number; gains: { kp: number } }[];
+    expect(temp.find((l) => l.key === "temp")).toMatchObject({ version: 2, gains: { kp: 7 } });
+    expect((await client.getConfig(changed.headers.get("etag")!)).status).toBe(304);
+  });
+});

@@ -6,8 +6,14 @@ export { readLimitedText };
 
 const JSON_HEADERS = { "content-type": "application/json; charset=utf-8", "cache-control": "no-store" };
 
+/** The body text of a jsonResponse, for scripts/serve.js to write without reading the stream. */
+const RAW_BODY = Symbol.for("flyball.rawBody");
+
 export function jsonResponse(body: unknown, status = 200, headers: Record<string, string> = {}): Response {
-  return new Response(JSON.stringify(body), { status, headers: { ...JSON_HEADERS, ...headers } });
+  const text = JSON.stringify(body);
+  const response = new Response(text, { status, headers: { ...JSON_HEADERS, ...headers } });
+  Object.defineProperty(response, RAW_BODY, { value: text });
+  return response;
 }
 
 export type Issue = { path: (string | number)[]; message: string };

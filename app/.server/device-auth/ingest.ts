@@ -1,8 +1,9 @@
-// POST /api/v1/device/digests: validate each digest, store the valid ones in one statement,
-// say which were refused. Idempotent on (loop, seq) through digest_seq (see schema/digests.ts).
-import { getPool } from "~/.server/db/client";
+// POST /api/v1/device/digests: validate each digest, store the valid ones, say which were
+// refused. Idempotent on (loop, seq) through digest_seq (see schema/digests.ts).
+import { createBatcher } from "~/.server/db/batch";
+import { getIngestPool, getPool } from "~/.server/db/client";
 import { scheduleHealthRefresh } from "~/.server/fleet/health";
-import type { DeviceContext } from "./tokens";
+import { deviceUnauthorized, refusalOf, TOKEN_CHECK_CTES, type DeviceContext, type TokenStanding, type VerifiedToken } from "./tokens";
 import { DigestSchema, type DigestInput } from "./schemas";
 
 export type Rejection = { index: number; code: string; message: string };
@@ -35,32 +36,121 @@ const COLUMNS = [
   ["u_mean", "float8"], ["u_std", "float8"], ["sat_high_frac", "float8"], ["sat_low_frac", "float8"], ["int_clamp_frac", "float8"], ["osc_count", "int4"], ["sp_changes", "int4"],
 ] as const;
 
-// The claim on (loop, seq) and the digest row go in together: a retry claims nothing and
-// stores nothing. One statement, one round trip, prepared once per connection.
-const INSERT_SQL = `
-with input as (
-  select * from unnest(${COLUMNS.map(([, type], i) => `$${i + 2}::${type}[]`).join(", ")})
-    as t(${COLUMNS.map(([name]) => name).join(", ")})
+// One statement for a whole batch of requests (see ~/.server/db/batch): the device token checks
+// (TOKEN_CHECK_CTES in tokens.ts) and the digests, so that a device's post costs one share of
+// one round trip. Only the digests of requests that pass the checks go on. The claim on
+// (loop, seq) and the digest row go in together, so a retry claims nothing and stores nothing.
+// No (loop, seq) appears twice in one statement (storePosts sees to it). Claims are taken in
+// key order so that concurrent batches never wait on each other in a cycle.
+const INGEST_SQL = `
+with request as (
+  select * from unnest($1::text[], $2::uuid[], $3::text[], $4::timestamptz[]) with ordinality
+    as t(organisation_id, device_id, jti, expires_at, req)
+), ${TOKEN_CHECK_CTES}, input as (
+  select p.organisation_id, t.*
+  from unnest($5::int8[], ${COLUMNS.map(([, type], i) => `$${i + 6}::${type}[]`).join(", ")})
+    as t(req, ${COLUMNS.map(([name]) => name).join(", ")})
+  join passed p on p.req = t.req
 ), claimed as (
   insert into digest_seq (organisation_id, loop_id, seq)
-  select $1, loop_id, seq from input
+  select organisation_id, loop_id, seq from input order by organisation_id, loop_id, seq
   on conflict do nothing
   returning loop_id, seq
+), stored as (
+  insert into digest (organisation_id, ${COLUMNS.map(([name]) => name).join(", ")})
+  select i.organisation_id, ${COLUMNS.map(([name]) => `i.${name}`).join(", ")}
+  from input i join claimed c on c.loop_id = i.loop_id and c.seq = i.seq
+  on conflict do nothing
+  returning loop_id, seq
+), stored_per_request as (
+  select i.req, count(*)::int as stored from input i join stored s on s.loop_id = i.loop_id and s.seq = i.seq group by i.req
 )
-insert into digest (organisation_id, ${COLUMNS.map(([name]) => name).join(", ")})
-select $1, ${COLUMNS.map(([name]) => `i.${name}`).join(", ")}
-from input i join claimed c on c.loop_id = i.loop_id and c.seq = i.seq
-on conflict do nothing`;
+select s.req, s.device_status, s.machine_status, p.req is not null as fresh, coalesce(n.stored, 0) as stored
+from state s left join passed p on p.req = s.req left join stored_per_request n on n.req = s.req
+order by s.req`;
+
+type Row = { loopId: string; d: DigestInput };
+type Post = { token: VerifiedToken; rows: Row[] };
+type PostOutcome = TokenStanding & { stored: number };
+
+/**
+ * Checks the tokens and stores the digests of several requests at once. Requests that repeat
+ * a (loop, seq) or a token of an earlier request in the batch go in a later statement, so that
+ * each is judged after the one before it (a duplicate only counts as such once its first copy
+ * is stored; a token only once).
+ */
+async function storePosts(posts: readonly Post[]): Promise<PostOutcome[]> {
+  const outcomes = new Array<PostOutcome>(posts.length);
+  let pending = posts.map((post, index) => ({ post, index }));
+  while (pending.length > 0) {
+    const now: typeof pending = [];
+    const later: typeof pending = [];
+    const keys = new Set<string>();
+    for (const entry of pending) {
+      const { token, rows } = entry.post;
+      const mine = [`${token.deviceId} ${token.jti}`, ...rows.map((r) => `${r.loopId} ${r.d.seq}`)];
+      if (mine.some((key) => keys.has(key))) later.push(entry);
+      else {
+        for (const key of mine) keys.add(key);
+        now.push(entry);
+      }
+    }
+    const results = await runIngest(now.map((e) => e.post));
+    now.forEach((entry, i) => (outcomes[entry.index] = results[i]));
+    pending = later;
+  }
+  return outcomes;
+}
+
+async function runIngest(posts: Post[]): Promise<PostOutcome[]> {
+  const requestColumns: unknown[][] = [[], [], [], []];
+  const digestColumns: unknown[][] = [[], ...COLUMNS.map(() => [])];
+  posts.forEach(({ token, rows }, index) => {
+    requestColumns[0].push(token.organisationId);
+    requestColumns[1].push(token.deviceId);
+    requestColumns[2].push(token.jti);
+    requestColumns[3].push(token.expiresAt.toISOString());
+    for (const { loopId, d } of rows) {
+      // `with ordinality` numbers the requests from 1.
+      const row = [index + 1, loopId, d.seq, d.windowStart, d.windowEnd, d.samples, d.gainVersion, d.spMean, d.pvMean, d.errMean, d.errRms, d.errMaxAbs, d.iae, d.ise, d.uMean, d.uStd, d.satHighFrac, d.satLowFrac, d.intClampFrac, d.oscCount, d.spChanges];
+      for (let c = 0; c < row.length; c++) digestColumns[c].push(row[c]);
+    }
+  });
+  // The digest columns are sent as array literals made here: every element is a finite number,
+  // a uuid from our own table or a time that passed z.iso.datetime, none of which holds a
+  // quote, comma, brace or space, so no element needs escaping (node-pg would quote each one).
+  const values = [...requestColumns, ...digestColumns.map((column) => `{${column.join(",")}}`)];
+  const query = () => getIngestPool().query<PostOutcome & { req: string }>({ name: "device_ingest", text: INGEST_SQL, values });
+  try {
+    return (await query()).rows;
+  } catch (error) {
+    // A month without its partition yet (the job creates them ahead; this is the fallback).
+    // The failed statement changed nothing, so it is simply run again.
+    if ((error as { code?: string }).code !== "23514") throw error;
+    const starts = posts.flatMap((p) => p.rows.map((r) => Date.parse(r.d.windowStart)));
+    const first = Math.min(...starts);
+    const months = Math.ceil((Math.max(...starts) - first) / (28 * 86_400_000)) + 2;
+    await getPool().query("select flyball_ensure_digest_partitions($1::date, $2)", [new Date(first).toISOString().slice(0, 10), months]);
+    return (await query()).rows;
+  }
+}
+
+const ingest = createBatcher(storePosts, { maxInFlight: 2, maxBatchSize: 32 });
 
 function describe(issues: { path: PropertyKey[]; message: string }[]): string {
   const first = issues[0];
   return first ? `${first.path.map(String).join(".") || "digest"}: ${first.message}` : "Invalid digest.";
 }
 
-export async function ingestDigests(ctx: DeviceContext, items: unknown[], nowMs = Date.now()): Promise<IngestResult> {
+/**
+ * Validate a device's digests and store the valid ones, recording the token's jti in the same
+ * statement. Throws a 401 Response (and stores nothing) when the device may not post.
+ */
+export async function ingestDigests(token: VerifiedToken, items: unknown[], nowMs = Date.now()): Promise<IngestResult> {
+  const ctx: DeviceContext = token;
   const loops = await loopsOf(ctx, nowMs);
   const rejected: Rejection[] = [];
-  const valid: { loopId: string; d: DigestInput }[] = [];
+  const valid: Row[] = [];
   const seen = new Set<string>();
   let duplicates = 0;
   for (let index = 0; index < items.length; index++) {
@@ -97,27 +187,10 @@ export async function ingestDigests(ctx: DeviceContext, items: unknown[], nowMs 
     seen.add(key);
     valid.push({ loopId, d });
   }
-  if (valid.length === 0) return { accepted: 0, duplicates, rejected };
-
-  const columns: unknown[][] = COLUMNS.map(() => new Array(valid.length));
-  for (let i = 0; i < valid.length; i++) {
-    const { loopId, d } = valid[i];
-    const row = [loopId, d.seq, d.windowStart, d.windowEnd, d.samples, d.gainVersion, d.spMean, d.pvMean, d.errMean, d.errRms, d.errMaxAbs, d.iae, d.ise, d.uMean, d.uStd, d.satHighFrac, d.satLowFrac, d.intClampFrac, d.oscCount, d.spChanges];
-    for (let c = 0; c < row.length; c++) columns[c][i] = row[c];
-  }
-  const values = [ctx.organisationId, ...columns];
-  let inserted: number;
-  try {
-    inserted = (await getPool().query({ name: "device_digest_insert", text: INSERT_SQL, values })).rowCount ?? 0;
-  } catch (error) {
-    // A month without its partition yet (the job creates them ahead; this is the fallback).
-    if ((error as { code?: string }).code !== "23514") throw error;
-    const first = valid.reduce((m, v) => Math.min(m, Date.parse(v.d.windowStart)), Infinity);
-    const last = valid.reduce((m, v) => Math.max(m, Date.parse(v.d.windowStart)), -Infinity);
-    const months = Math.ceil((last - first) / (28 * 86_400_000)) + 2;
-    await getPool().query("select flyball_ensure_digest_partitions($1::date, $2)", [new Date(first).toISOString().slice(0, 10), months]);
-    inserted = (await getPool().query({ name: "device_digest_insert", text: INSERT_SQL, values })).rowCount ?? 0;
-  }
-  if (inserted > 0) scheduleHealthRefresh(ctx.organisationId, ctx.machineId);
-  return { accepted: inserted, duplicates: duplicates + (valid.length - inserted), rejected };
+  // Even with nothing valid to store the token is checked and its jti used up.
+  const outcome = await ingest.run({ token, rows: valid });
+  const refusal = refusalOf(outcome);
+  if (refusal) throw deviceUnauthorized(refusal);
+  if (outcome.stored > 0) scheduleHealthRefresh(ctx.organisationId, ctx.machineId);
+  return { accepted: outcome.stored, duplicates: duplicates + (valid.length - outcome.stored), rejected };
 }

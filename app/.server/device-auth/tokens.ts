@@ -5,9 +5,11 @@
 //
 // The public key of a device id never changes (re-enrolment makes a new device), so keys are
 // cached per process. Whether the device is still active and the jti still unused is asked of
-// PostgreSQL on every request, in one statement that also records the jti: revocation and
-// replay refusal hold across restarts and across any number of app processes.
+// PostgreSQL on every request, in a statement that also records the jti (shared by the
+// requests that arrive together): revocation and replay refusal hold across restarts and
+// across any number of app processes.
 import { decodeProtectedHeader, importJWK, jwtVerify, errors as joseErrors, type CryptoKey } from "jose";
+import { createBatcher } from "~/.server/db/batch";
 import { getPool } from "~/.server/db/client";
 import { apiError } from "./http";
 
@@ -17,6 +19,8 @@ export const MAX_TOKEN_LIFETIME_S = 300;
 export const CLOCK_SKEW_S = 60;
 
 export type DeviceContext = { organisationId: string; deviceId: string; machineId: string };
+/** With `withConfigState`, also a digest of the machine's configuration as of this request. */
+export type AuthenticatedDevice = DeviceContext & { configState: string | null };
 
 type CachedKey = { organisationId: string; machineId: string; alg: string; key: CryptoKey | Uint8Array };
 const keyCache = new Map<string, CachedKey>();
@@ -52,25 +56,80 @@ async function loadKey(deviceId: string): Promise<CachedKey | null> {
   return entry;
 }
 
-// One round trip: is the device active and its machine in service, and is this jti new?
-// Records the jti (until the token would expire anyway) and, at most every 10 s, last_seen_at.
-const CHECK_SQL = `
-with d as (
-  select d.organisation_id, d.id, d.machine_id, d.status as device_status, m.status as machine_status
-  from device d join machine m on m.organisation_id = d.organisation_id and m.id = d.machine_id
-  where d.organisation_id = $1 and d.id = $2
-), ins as (
+/**
+ * The token checks of a batched statement, as CTEs after one named `request` that has a row per
+ * request: (organisation_id, device_id, jti, expires_at, req). Whether each device is still
+ * active and its machine in service, and whether each jti is new: `state` has every request
+ * with its device's and machine's status, `passed` the requests that may go ahead, whose jtis
+ * are now recorded (until the token would expire anyway). jtis go in key order so concurrent
+ * batches never wait on each other in a cycle. last_seen_at moves at most every 10 s per
+ * machine and skips rows another batch is updating. Used by GATE_SQL and by ingest.ts.
+ */
+export const TOKEN_CHECK_CTES = `state as (
+  select r.*, d.machine_id, d.status as device_status, m.status as machine_status
+  from request r
+  left join device d on d.organisation_id = r.organisation_id and d.id = r.device_id
+  left join machine m on m.organisation_id = d.organisation_id and m.id = d.machine_id
+), fresh as (
   insert into device_jti (organisation_id, device_id, jti, expires_at)
-  select organisation_id, id, $3, $4 from d where device_status = 'active' and machine_status = 'active'
-  on conflict do nothing returning 1
+  select organisation_id, device_id, jti, expires_at from state
+  where device_status = 'active' and machine_status = 'active'
+  order by organisation_id, device_id, jti
+  on conflict do nothing
+  returning device_id, jti
+), passed as (
+  select s.req, s.organisation_id, s.machine_id from state s join fresh f on f.device_id = s.device_id and f.jti = s.jti
 ), seen as (
   update machine set last_seen_at = now()
-  where organisation_id = $1 and id = (select machine_id from d) and exists (select 1 from ins)
-    and (last_seen_at is null or last_seen_at < now() - interval '10 seconds')
+  where (organisation_id, id) in (
+    select m.organisation_id, m.id from machine m
+    where (m.organisation_id, m.id) in (select organisation_id, machine_id from passed)
+      and (m.last_seen_at is null or m.last_seen_at < now() - interval '10 seconds')
+    for update skip locked)
   returning 1
-)
-select (select device_status from d) as device_status, (select machine_status from d) as machine_status,
-       exists (select 1 from ins) as fresh, (select count(*) from seen) as seen`;
+)`;
+
+// The token checks of config pulls and acks (see ~/.server/db/batch), a batch at a time. A
+// config pull also gets a digest of the machine's configuration state, which its ETag is made from.
+const GATE_SQL = `
+with request as (
+  select * from unnest($1::text[], $2::uuid[], $3::text[], $4::timestamptz[], $5::bool[]) with ordinality
+    as t(organisation_id, device_id, jti, expires_at, want_config, req)
+), ${TOKEN_CHECK_CTES}
+select s.req, s.device_status, s.machine_status, p.req is not null as fresh,
+  case when s.want_config and p.req is not null then (
+    select md5(string_agg(concat_ws('|', l.key, l.config_version, l.gains::text, t.output_min, t.output_max, t.sample_period_s), ';' order by l.key))
+    from loop l join loop_template t on t.organisation_id = l.organisation_id and t.id = l.template_id
+    where l.organisation_id = s.organisation_id and l.machine_id = s.machine_id) end as config_state
+from state s left join passed p on p.req = s.req
+order by s.req`;
+
+type GateItem = { organisationId: string; deviceId: string; jti: string; expiresAt: Date; wantConfig: boolean };
+type GateAnswer = TokenStanding & { config_state: string | null };
+
+async function runGate(items: readonly GateItem[]): Promise<GateAnswer[]> {
+  // The same token twice in one batch: only its first use can be fresh.
+  const first = new Map<string, number>();
+  const unique: GateItem[] = [];
+  const slot = items.map((item) => {
+    const key = `${item.deviceId} ${item.jti}`;
+    let at = first.get(key);
+    if (at === undefined) {
+      first.set(key, (at = unique.length));
+      unique.push(item);
+      return at;
+    }
+    return -1;
+  });
+  const result = await getPool().query<GateAnswer & { req: string }>({
+    name: "device_gate",
+    text: GATE_SQL,
+    values: [unique.map((i) => i.organisationId), unique.map((i) => i.deviceId), unique.map((i) => i.jti), unique.map((i) => i.expiresAt.toISOString()), unique.map((i) => i.wantConfig)],
+  });
+  return slot.map((at, n) => (at >= 0 ? result.rows[at] : { ...result.rows[first.get(`${items[n].deviceId} ${items[n].jti}`)!], fresh: false, config_state: null }));
+}
+
+const gate = createBatcher(runGate, { maxInFlight: 2, maxBatchSize: 256 });
 
 function bearer(request: Request): string {
   const header = request.headers.get("authorization");
@@ -80,8 +139,27 @@ function bearer(request: Request): string {
   return match[1];
 }
 
-/** Verify the request's device token; answers the device, or throws a 401 Response. */
-export async function authenticateDevice(request: Request, now: Date = new Date()): Promise<DeviceContext> {
+/** A device token whose signature and claims hold; whether it may be used is not yet asked. */
+export type VerifiedToken = DeviceContext & { jti: string; expiresAt: Date };
+
+/** What PostgreSQL says of a token's device and jti (see GATE_SQL and ingest.ts). */
+export type TokenStanding = { device_status: string | null; machine_status: string | null; fresh: boolean };
+
+/** The reason to refuse a verified token, or null when it may be used. */
+export function refusalOf(standing: TokenStanding): string | null {
+  if (!standing.device_status) return "unknown_key";
+  if (standing.device_status !== "active") return "device_revoked";
+  if (standing.machine_status !== "active") return "machine_decommissioned";
+  if (!standing.fresh) return "token_replayed";
+  return null;
+}
+
+/**
+ * Check the request's device token (signature, header and claims) without writing anything;
+ * throws a 401 Response. The caller must then record the jti and check the device's standing,
+ * as authenticateDevice does, or in the same statement as its own work (ingest.ts).
+ */
+export async function verifyDeviceToken(request: Request, now = new Date()): Promise<VerifiedToken> {
   try {
     return await verify(request, now);
   } catch (error) {
@@ -90,7 +168,20 @@ export async function authenticateDevice(request: Request, now: Date = new Date(
   }
 }
 
-async function verify(request: Request, now: Date): Promise<DeviceContext> {
+/** Record a verified token's jti and check the device's standing; throws a 401 Response when refused. */
+export async function admitDeviceToken(token: VerifiedToken, { withConfigState = false }: { withConfigState?: boolean } = {}): Promise<AuthenticatedDevice> {
+  const standing = await gate.run({ ...token, wantConfig: withConfigState });
+  const refusal = refusalOf(standing);
+  if (refusal) throw deviceUnauthorized(refusal);
+  return { organisationId: token.organisationId, deviceId: token.deviceId, machineId: token.machineId, configState: standing.config_state };
+}
+
+/** Verify the request's device token and record its jti; answers the device, or throws a 401 Response. */
+export async function authenticateDevice(request: Request, { now = new Date(), withConfigState = false }: { now?: Date; withConfigState?: boolean } = {}): Promise<AuthenticatedDevice> {
+  return admitDeviceToken(await verifyDeviceToken(request, now), { withConfigState });
+}
+
+async function verify(request: Request, now: Date): Promise<VerifiedToken> {
   const token = bearer(request);
   let header: ReturnType<typeof decodeProtectedHeader>;
   try {
@@ -137,18 +228,8 @@ async function verify(request: Request, now: Date): Promise<DeviceContext> {
   if (exp <= iat) throw new Refusal("token_expired");
   const jti = payload.jti;
   if (typeof jti !== "string" || jti.length < 8 || jti.length > 128) throw new Refusal("bad_jti");
-
-  const result = await getPool().query<{ device_status: string | null; machine_status: string | null; fresh: boolean }>({
-    name: "device_token_check",
-    text: CHECK_SQL,
-    values: [key.organisationId, deviceId, jti, new Date((exp + CLOCK_SKEW_S) * 1000)],
-  });
-  const row = result.rows[0];
-  if (!row?.device_status) throw new Refusal("unknown_key");
-  if (row.device_status !== "active") throw new Refusal("device_revoked");
-  if (row.machine_status !== "active") throw new Refusal("machine_decommissioned");
-  if (!row.fresh) throw new Refusal("token_replayed");
-  return { organisationId: key.organisationId, deviceId, machineId: key.machineId };
+  // The jti is kept until the token would be refused as expired anyway.
+  return { organisationId: key.organisationId, deviceId, machineId: key.machineId, jti, expiresAt: new Date((exp + CLOCK_SKEW_S) * 1000) };
 }
 
 /** Forget cached keys (tests, or after a device row is deleted). */

@@ -64,15 +64,21 @@ export async function refreshMachineHealth(db: Db, { organisationId, machineId, 
 }
 
 const pending = new Map<string, ReturnType<typeof setTimeout>>();
+const lastRefresh = new Map<string, number>();
+/** A machine posting continuously is reassessed at most this often (its digests span minutes). */
+const MIN_INTERVAL_MS = 15_000;
 
 /** Refresh a machine's loop health shortly, coalescing repeated requests. */
 export function scheduleHealthRefresh(organisationId: string, machineId: string, delayMs = 1500): void {
   const key = `${organisationId}:${machineId}`;
   if (pending.has(key)) return;
+  const wait = Math.max(delayMs, (lastRefresh.get(key) ?? 0) + MIN_INTERVAL_MS - Date.now());
   const timer = setTimeout(() => {
     pending.delete(key);
+    if (lastRefresh.size > 100_000) lastRefresh.clear();
+    lastRefresh.set(key, Date.now());
     refreshMachineHealth(getDb(), { organisationId, machineId }).catch((error) => console.error("health refresh failed", error));
-  }, delayMs);
+  }, wait);
   timer.unref?.();
   pending.set(key, timer);
 }

@@ -7,7 +7,7 @@ import type { Route } from "./+types/config";
 
 export async function loader({ request }: Route.LoaderArgs) {
   try {
-    const ctx = await authenticateDevice(request);
+    const ctx = await authenticateDevice(request, { withConfigState: true });
     const config = await getDeviceConfig(ctx, request.headers.get("if-none-match"));
     const headers = { etag: config.etag, "cache-control": "private, no-cache", vary: "accept" };
     if (config.notModified) return new Response(null, { status: 304, headers });
