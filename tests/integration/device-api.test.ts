@@ -4,7 +4,7 @@ import { and, eq, sql } from "drizzle-orm";
 import { compactVerify, importJWK, SignJWT, decodeJwt } from "jose";
 import { randomUUID } from "node:crypto";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { auditEvent, device, loop, machine } from "~/.server/db/schema";
+import { auditEvent, device, digestSeq, loop, machine } from "~/.server/db/schema";
 import { createDeviceIdentity, DeviceClient, sampleDigest } from "../../scripts/simulator/device-client";
 import { createTeam, createTestFleet } from "../factories";
 import { closeDb, db } from "../support/db";
@@ -309,7 +309,7 @@ describe("requests that arrive together", () => {
     return client;
   };
   beforeAll(async () => {
-    more = await createTestFleet(db(), { organisationId: team.organisation.id, machinesPerSite: 6 });
+    more = await createTestFleet(db(), { organisationId: team.organisation.id, machinesPerSite: 7 });
   });
 
   it("stores concurrent posts from many devices, each digest once and counted for its own request", async () => {
@@ -388,5 +388,15 @@ describe("requests that arrive together", () => {
     const temp = decodeJwt(await changed.text()).loops as { key: string; version: number; gains: { kp: number } }[];
     expect(temp.find((l) => l.key === "temp")).toMatchObject({ version: 2, gains: { kp: 7 } });
     expect((await client.getConfig(changed.headers.get("etag")!)).status).toBe(304);
+  });
+
+  it("forgets a deleted loop's (loop, seq) claims with its digests", async () => {
+    const client = await enrolFrom(12);
+    expect((await client.postDigests([sampleDigest("speed", 1, minutesAgo(6)), sampleDigest("speed", 2, minutesAgo(5))])).status).toBe(200);
+    const [speed] = await db().select().from(loop).where(and(eq(loop.machineId, more.machines[12].id), eq(loop.key, "speed")));
+    const claims = () => db().select().from(digestSeq).where(eq(digestSeq.loopId, speed.id));
+    expect(await claims()).toHaveLength(2);
+    await db().delete(loop).where(eq(loop.id, speed.id));
+    expect(await claims()).toHaveLength(0);
   });
 });
