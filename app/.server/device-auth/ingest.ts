@@ -40,8 +40,9 @@ const COLUMNS = [
 // (TOKEN_CHECK_CTES in tokens.ts) and the digests, so that a device's post costs one share of
 // one round trip. Only the digests of requests that pass the checks go on. The claim on
 // (loop, seq) and the digest row go in together, so a retry claims nothing and stores nothing.
-// No (loop, seq) appears twice in one statement (storePosts sees to it). Claims are taken in
-// key order so that concurrent batches never wait on each other in a cycle.
+// No (loop, seq) appears twice in one statement (storePosts sees to it). A newly claimed
+// (loop, seq) has no digest yet, so every claimed row is stored and is counted from the claims.
+// Claims are taken in key order so that concurrent batches never wait on each other in a cycle.
 const INGEST_SQL = `
 with request as (
   select * from unnest($1::text[], $2::uuid[], $3::text[], $4::timestamptz[]) with ordinality
@@ -56,14 +57,14 @@ with request as (
   select organisation_id, loop_id, seq from input order by organisation_id, loop_id, seq
   on conflict do nothing
   returning loop_id, seq
+), accepted as (
+  select i.* from input i join claimed c on c.loop_id = i.loop_id and c.seq = i.seq
 ), stored as (
   insert into digest (organisation_id, ${COLUMNS.map(([name]) => name).join(", ")})
-  select i.organisation_id, ${COLUMNS.map(([name]) => `i.${name}`).join(", ")}
-  from input i join claimed c on c.loop_id = i.loop_id and c.seq = i.seq
+  select organisation_id, ${COLUMNS.map(([name]) => name).join(", ")} from accepted
   on conflict do nothing
-  returning loop_id, seq
 ), stored_per_request as (
-  select i.req, count(*)::int as stored from input i join stored s on s.loop_id = i.loop_id and s.seq = i.seq group by i.req
+  select req, count(*)::int as stored from accepted group by req
 )
 select s.req, s.device_status, s.machine_status, p.req is not null as fresh, coalesce(n.stored, 0) as stored
 from state s left join passed p on p.req = s.req left join stored_per_request n on n.req = s.req
