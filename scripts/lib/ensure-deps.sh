@@ -4,6 +4,8 @@ ensure_node_modules() {
   local marker=node_modules/.package-lock.json
   if [[ ! -f "$marker" || package-lock.json -nt "$marker" ]]; then
     echo "Installing npm dependencies…"
-    npm ci --no-audit --no-fund --loglevel=error
+    # --include=dev: the build and the scripts need the dev tools even when NODE_ENV=production
+    # (npm start exports it, and npm would then leave devDependencies out).
+    npm ci --include=dev --no-audit --no-fund --loglevel=error
   fi
 }
