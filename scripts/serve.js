@@ -70,16 +70,20 @@ function readBody(req) {
   });
 }
 
+// The bytes of a lean request's body ride along on the Request under this symbol, and
+// readLimitedBytes (app/.server/http/body.ts) takes them from there instead of reading the
+// Request's body stream. Responses made by jsonResponse (app/.server/device-auth/http.ts) carry
+// their text under it the other way, so it is written without reading the Response's stream.
+const RAW_BODY = Symbol.for("flyball.rawBody");
+
 /** @param {import("node:http").IncomingMessage} req @param {URL} url @param {Buffer | undefined} body */
 function toRequest(req, url, body) {
   const headers = new Headers();
   for (let i = 0; i < req.rawHeaders.length; i += 2) headers.append(req.rawHeaders[i], req.rawHeaders[i + 1]);
-  return new Request(url, { method: req.method, headers, body });
+  const request = new Request(url, { method: req.method, headers, body });
+  if (body) Object.defineProperty(request, RAW_BODY, { value: body });
+  return request;
 }
-
-// Responses made by jsonResponse (app/.server/device-auth/http.ts) carry their body text under
-// this symbol, so it can be written without going through the Response's body stream.
-const RAW_BODY = Symbol.for("flyball.rawBody");
 
 /** @param {import("node:http").ServerResponse} res @param {Response} response */
 async function sendResponse(res, response) {

@@ -4,8 +4,13 @@
 
 const DRAIN_CEILING = 64 * 1024 * 1024;
 
+/** The body bytes scripts/serve.js already read for a device API request (see there). */
+const RAW_BODY = Symbol.for("flyball.rawBody");
+
 /** The body's bytes, or null when it is larger than `limit`. */
 export async function readLimitedBytes(request: Request, limit: number): Promise<Uint8Array | null> {
+  const raw = (request as Request & { [RAW_BODY]?: Uint8Array })[RAW_BODY];
+  if (raw && !request.bodyUsed) return raw.byteLength > limit ? null : raw;
   const declared = Number(request.headers.get("content-length"));
   if (Number.isFinite(declared) && declared > DRAIN_CEILING) return null;
   if (!request.body) return new Uint8Array();
