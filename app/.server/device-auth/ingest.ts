@@ -75,21 +75,30 @@ type Post = { token: VerifiedToken; rows: Row[] };
 type PostOutcome = TokenStanding & { stored: number };
 
 /**
- * Checks the tokens and stores the digests of several requests at once. Requests that repeat
- * a (loop, seq) or a token of an earlier request in the batch go in a later statement, so that
- * each is judged after the one before it (a duplicate only counts as such once its first copy
- * is stored; a token only once).
+ * Checks the tokens and stores the digests of several requests at once. A token used again in
+ * the same batch is a replay: it is refused with its first use's standing. Requests that repeat
+ * a (loop, seq) of an earlier request go in a later statement, so that each is judged after the
+ * one before it (a duplicate only counts as such once its first copy is stored).
  */
 async function storePosts(posts: readonly Post[]): Promise<PostOutcome[]> {
   const outcomes = new Array<PostOutcome>(posts.length);
-  let pending = posts.map((post, index) => ({ post, index }));
+  const firstUse = new Map<string, number>();
+  const replays: { index: number; first: number }[] = [];
+  let pending: { post: Post; index: number }[] = [];
+  posts.forEach((post, index) => {
+    const token = `${post.token.deviceId} ${post.token.jti}`;
+    const first = firstUse.get(token);
+    if (first === undefined) {
+      firstUse.set(token, index);
+      pending.push({ post, index });
+    } else replays.push({ index, first });
+  });
   while (pending.length > 0) {
     const now: typeof pending = [];
     const later: typeof pending = [];
     const keys = new Set<string>();
     for (const entry of pending) {
-      const { token, rows } = entry.post;
-      const mine = [`${token.deviceId} ${token.jti}`, ...rows.map((r) => `${r.loopId} ${r.d.seq}`)];
+      const mine = entry.post.rows.map((r) => `${r.loopId} ${r.d.seq}`);
       if (mine.some((key) => keys.has(key))) later.push(entry);
       else {
         for (const key of mine) keys.add(key);
@@ -100,6 +109,7 @@ async function storePosts(posts: readonly Post[]): Promise<PostOutcome[]> {
     now.forEach((entry, i) => (outcomes[entry.index] = results[i]));
     pending = later;
   }
+  for (const { index, first } of replays) outcomes[index] = { ...outcomes[first], fresh: false, stored: 0 };
   return outcomes;
 }
 
