@@ -1,13 +1,10 @@
 // JSON answers of the device and management APIs: `{"error": {"code", "message", "issues"?}}`.
 import type { z } from "zod";
-import { readLimitedText } from "~/.server/http/body";
+import { RAW_BODY, readLimitedText } from "~/.server/http/body";
 
 export { readLimitedText };
 
 const JSON_HEADERS = { "content-type": "application/json; charset=utf-8", "cache-control": "no-store" };
-
-/** The body text of a jsonResponse, for scripts/serve.js to write without reading the stream. */
-const RAW_BODY = Symbol.for("flyball.rawBody");
 
 export function jsonResponse(body: unknown, status = 200, headers: Record<string, string> = {}): Response {
   const text = JSON.stringify(body);

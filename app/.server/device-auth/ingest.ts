@@ -3,7 +3,7 @@
 import { createBatcher } from "~/.server/db/batch";
 import { getIngestPool, getPool } from "~/.server/db/client";
 import { scheduleHealthRefresh } from "~/.server/fleet/health";
-import { deviceUnauthorized, refusalOf, TOKEN_CHECK_CTES, type DeviceContext, type TokenStanding, type VerifiedToken } from "./tokens";
+import { deviceUnauthorized, refusalOf, runOncePerToken, TOKEN_CHECK_CTES, type DeviceContext, type TokenStanding, type VerifiedToken } from "./tokens";
 import { DigestSchema, type DigestInput } from "./schemas";
 
 export type Rejection = { index: number; code: string; message: string };
@@ -76,23 +76,17 @@ type PostOutcome = TokenStanding & { stored: number };
 
 /**
  * Checks the tokens and stores the digests of several requests at once. A token used again in
- * the same batch is a replay: it is refused with its first use's standing. Requests that repeat
- * a (loop, seq) of an earlier request go in a later statement, so that each is judged after the
- * one before it (a duplicate only counts as such once its first copy is stored).
+ * the same batch is a replay (runOncePerToken). Requests that repeat a (loop, seq) of an earlier
+ * request go in a later statement, so that each is judged after the one before it (a duplicate
+ * only counts as such once its first copy is stored).
  */
-async function storePosts(posts: readonly Post[]): Promise<PostOutcome[]> {
+function storePosts(posts: readonly Post[]): Promise<PostOutcome[]> {
+  return runOncePerToken(posts, (post) => post.token, storeInRounds, (first) => ({ ...first, fresh: false, stored: 0 }));
+}
+
+async function storeInRounds(posts: Post[]): Promise<PostOutcome[]> {
   const outcomes = new Array<PostOutcome>(posts.length);
-  const firstUse = new Map<string, number>();
-  const replays: { index: number; first: number }[] = [];
-  let pending: { post: Post; index: number }[] = [];
-  posts.forEach((post, index) => {
-    const token = `${post.token.deviceId} ${post.token.jti}`;
-    const first = firstUse.get(token);
-    if (first === undefined) {
-      firstUse.set(token, index);
-      pending.push({ post, index });
-    } else replays.push({ index, first });
-  });
+  let pending = posts.map((post, index) => ({ post, index }));
   while (pending.length > 0) {
     const now: typeof pending = [];
     const later: typeof pending = [];
@@ -109,7 +103,6 @@ async function storePosts(posts: readonly Post[]): Promise<PostOutcome[]> {
     now.forEach((entry, i) => (outcomes[entry.index] = results[i]));
     pending = later;
   }
-  for (const { index, first } of replays) outcomes[index] = { ...outcomes[first], fresh: false, stored: 0 };
   return outcomes;
 }
 
@@ -158,8 +151,7 @@ function describe(issues: { path: PropertyKey[]; message: string }[]): string {
  * statement. Throws a 401 Response (and stores nothing) when the device may not post.
  */
 export async function ingestDigests(token: VerifiedToken, items: unknown[], nowMs = Date.now()): Promise<IngestResult> {
-  const ctx: DeviceContext = token;
-  const loops = await loopsOf(ctx, nowMs);
+  const loops = await loopsOf(token, nowMs);
   const rejected: Rejection[] = [];
   const valid: Row[] = [];
   const seen = new Set<string>();
@@ -202,6 +194,6 @@ export async function ingestDigests(token: VerifiedToken, items: unknown[], nowM
   const outcome = await ingest.run({ token, rows: valid });
   const refusal = refusalOf(outcome);
   if (refusal) throw deviceUnauthorized(refusal);
-  if (outcome.stored > 0) scheduleHealthRefresh(ctx.organisationId, ctx.machineId);
+  if (outcome.stored > 0) scheduleHealthRefresh(token.organisationId, token.machineId);
   return { accepted: outcome.stored, duplicates: duplicates + (valid.length - outcome.stored), rejected };
 }

@@ -104,30 +104,45 @@ select s.req, s.device_status, s.machine_status, p.req is not null as fresh,
 from state s left join passed p on p.req = s.req
 order by s.req`;
 
-type GateItem = { organisationId: string; deviceId: string; jti: string; expiresAt: Date; wantConfig: boolean };
+type GateItem = VerifiedToken & { wantConfig: boolean };
 type GateAnswer = TokenStanding & { config_state: string | null };
 
-async function runGate(items: readonly GateItem[]): Promise<GateAnswer[]> {
-  // The same token twice in one batch: only its first use can be fresh.
-  const first = new Map<string, number>();
-  const unique: GateItem[] = [];
-  const slot = items.map((item) => {
-    const key = `${item.deviceId} ${item.jti}`;
-    let at = first.get(key);
-    if (at === undefined) {
-      first.set(key, (at = unique.length));
-      unique.push(item);
-      return at;
-    }
-    return -1;
+/**
+ * Runs a batch in which a token may come more than once (a replay sent beside its first use):
+ * `run` sees each token once, in the order of first use, and a repeat is answered with its
+ * first use's standing, not fresh (`asRepeat`). Used by the gate and by ingest.ts.
+ */
+export async function runOncePerToken<I, O extends TokenStanding>(
+  items: readonly I[],
+  tokenOf: (item: I) => VerifiedToken,
+  run: (firsts: I[]) => Promise<O[]>,
+  asRepeat: (first: O) => O,
+): Promise<O[]> {
+  const firstAt = new Map<string, number>();
+  const firsts: I[] = [];
+  const slots = items.map((item) => {
+    const { deviceId, jti } = tokenOf(item);
+    const key = `${deviceId} ${jti}`;
+    const at = firstAt.get(key);
+    if (at !== undefined) return { at, repeat: true };
+    firstAt.set(key, firsts.length);
+    firsts.push(item);
+    return { at: firsts.length - 1, repeat: false };
   });
+  const answers = await run(firsts);
+  return slots.map(({ at, repeat }) => (repeat ? asRepeat(answers[at]) : answers[at]));
+}
+
+async function queryGate(items: GateItem[]): Promise<GateAnswer[]> {
   const result = await getPool().query<GateAnswer & { req: string }>({
     name: "device_gate",
     text: GATE_SQL,
-    values: [unique.map((i) => i.organisationId), unique.map((i) => i.deviceId), unique.map((i) => i.jti), unique.map((i) => i.expiresAt.toISOString()), unique.map((i) => i.wantConfig)],
+    values: [items.map((i) => i.organisationId), items.map((i) => i.deviceId), items.map((i) => i.jti), items.map((i) => i.expiresAt.toISOString()), items.map((i) => i.wantConfig)],
   });
-  return slot.map((at, n) => (at >= 0 ? result.rows[at] : { ...result.rows[first.get(`${items[n].deviceId} ${items[n].jti}`)!], fresh: false, config_state: null }));
+  return result.rows;
 }
+
+const runGate = (items: readonly GateItem[]) => runOncePerToken(items, (item) => item, queryGate, (first) => ({ ...first, fresh: false, config_state: null }));
 
 const gate = createBatcher(runGate, { maxInFlight: 2, maxBatchSize: 256 });
 

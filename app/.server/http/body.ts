@@ -4,8 +4,12 @@
 
 const DRAIN_CEILING = 64 * 1024 * 1024;
 
-/** The body bytes scripts/serve.js already read for a device API request (see there). */
-const RAW_BODY = Symbol.for("flyball.rawBody");
+/**
+ * scripts/serve.js's lean path puts the body bytes it already read on the Request under this
+ * symbol, and writes the text of a jsonResponse (device-auth/http.ts) found under it on the
+ * Response: neither then goes through a body stream. Symbol.for, because serve.js is plain JS.
+ */
+export const RAW_BODY = Symbol.for("flyball.rawBody");
 
 /** The body's bytes, or null when it is larger than `limit`. */
 export async function readLimitedBytes(request: Request, limit: number): Promise<Uint8Array | null> {
