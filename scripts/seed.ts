@@ -2,7 +2,6 @@
 import { sql } from "drizzle-orm";
 import { closeDb, getDb } from "~/.server/db/client";
 import { organisation } from "~/.server/db/schema";
-import { createSigningKey } from "~/.server/device-auth/signing-keys";
 import { addMember, assignSite, createCustomer, createMachine, createMachineModel, createOrganisation, createSite, createUser } from "../tests/factories";
 import { DEMO_FLEETS, DEMO_ORGANISATIONS, DEMO_PASSWORD } from "./seed/demo-data";
 
@@ -31,7 +30,6 @@ export async function seedDemo(): Promise<boolean> {
         }
         sitesByCustomer.set(c.name, ids);
       }
-      await createSigningKey(tx, { organisationId: org.id });
       const fleet = DEMO_FLEETS[demo.slug];
       if (fleet) {
         const model = await createMachineModel(tx, { organisationId: org.id, ...fleet.model });

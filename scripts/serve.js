@@ -1,30 +1,63 @@
 // The production server for the built app (replaces react-router-serve).
 //
-// Devices call /api/v1/device/* thousands of times a minute with small JSON bodies. Those
-// resource routes are served by a lean path: the request goes straight to the route
-// module's loader or action (found in the React Router build, so app/routes.ts stays the
-// one route table) without the document-request machinery. Everything else — pages, the
-// management and compute APIs, better-auth — goes through React Router's request listener,
-// and files under build/client are served from disk.
+// Every request is turned into a web Request here, from the configured origin and the request's
+// path only (never from its Host header), with the client's address in one header of ours and a
+// body that cannot grow past a ceiling. Then:
+// - /api/v1/device/* goes straight to its route module's loader or action (the lean path: the
+//   fleet calls it thousands of times a minute, and the document machinery costs more than the
+//   work); its body is read only when the route asks for it, after the token is checked, and
+//   never past the route's own limit (DEVICE_BODY_LIMITS);
+// - files under build/client are served from disk;
+// - everything else goes to React Router's request handler.
+// A bad request line, header or URL gets 400; an error inside one request answers 500 for that
+// request and never ends the process. Security headers go on every answer.
 //
 //   node scripts/serve.js [build/server/index.js]      PORT, HOST as for react-router-serve
 //
 // Plain JavaScript on purpose: it runs with node alone (tsx's loader stalls importing the
-// server build), and it is small enough to read without types.
+// server build).
 import { createReadStream, statSync } from "node:fs";
 import http from "node:http";
+import { isIP } from "node:net";
 import path from "node:path";
 import { pathToFileURL } from "node:url";
-import { createRequestListener } from "@react-router/node";
+import { createRequestHandler } from "react-router";
 
 const buildPath = path.resolve(process.argv[2] ?? `${process.env.FLYBALL_BUILD_DIR ?? "build"}/server/index.js`);
 const clientDir = path.resolve(path.dirname(buildPath), "../client");
 const port = Number(process.env.PORT ?? 3000);
 const host = process.env.HOST ?? "127.0.0.1";
 process.env.NODE_ENV ??= "production";
+/** Requests are built on this origin; the Host header a client sends is never used. */
+const ORIGIN = new URL(process.env.BETTER_AUTH_URL ?? `http://${host}:${port}`).origin;
+const OVER_TLS = ORIGIN.startsWith("https:");
+
+/** The header that carries the client's address to the app (see clientAddress). */
+const CLIENT_ADDRESS_HEADER = "x-flyball-client-address";
+/** Proxies whose X-Forwarded-For is believed (TRUSTED_PROXIES, comma separated addresses). */
+const TRUSTED_PROXIES = new Set(
+  (process.env.TRUSTED_PROXIES ?? "")
+    .split(",")
+    .map((a) => a.trim())
+    .filter(Boolean),
+);
+
+// Bodies: the most any route reads (the compute API's 16 MiB JSON plus room for a form's
+// framing); past it the request's stream fails and the connection is closed. The device
+// routes have tighter limits of their own, applied before anything is buffered.
+const BODY_CEILING = 17 * 1024 * 1024;
+/** @type {Record<string, number>} */
+const DEVICE_BODY_LIMITS = {
+  "/api/v1/device/digests": 256 * 1024,
+  "/api/v1/device/config/ack": 8 * 1024,
+  "/api/v1/device/enrol": 16 * 1024,
+  "/api/v1/device/config": 0,
+};
+/** After an oversize device body, this much more is read and dropped so the client hears our 413. */
+const DRAIN_ALLOWANCE = 1024 * 1024;
 
 const build = await import(pathToFileURL(buildPath).href);
-const renderApp = createRequestListener({ build, mode: process.env.NODE_ENV });
+const handleRequest = createRequestHandler(build, process.env.NODE_ENV);
 
 /** Device API paths → their route modules, read from the build's route table. */
 function deviceRoutes() {
@@ -45,24 +78,81 @@ function deviceRoutes() {
 }
 const lean = deviceRoutes();
 
-// Device request bodies are small (the routes allow at most 256 KiB): read them into memory
-// here instead of through a web stream. A body over LEAN_BODY_LIMIT is drained (so the client
-// sees our answer, not a broken pipe) and answered 413 without reaching the route.
-const LEAN_BODY_LIMIT = 1024 * 1024;
-const DRAIN_CEILING = 64 * 1024 * 1024;
+class BadRequest extends Error {}
 
-/** @param {import("node:http").IncomingMessage} req @returns {Promise<Buffer | null>} null when too large */
-function readBody(req) {
+/**
+ * The request's URL on our own origin. Only origin-form targets ("/path?query") are served;
+ * an absolute or malformed target, or one with a NUL, is a bad request.
+ * @param {string | undefined} target
+ */
+function requestUrl(target) {
+  if (!target || !target.startsWith("/") || target.startsWith("//") || target.includes("\0")) throw new BadRequest("bad request target");
+  let url;
+  try {
+    url = new URL(target, ORIGIN);
+  } catch {
+    throw new BadRequest("bad request target");
+  }
+  if (url.origin !== ORIGIN) throw new BadRequest("bad request target");
+  return url;
+}
+
+/**
+ * The address the request came from: the socket's, or, when the socket is a trusted proxy, the
+ * nearest address in X-Forwarded-For that is not itself a trusted proxy.
+ * @param {import("node:http").IncomingMessage} req
+ */
+function clientAddress(req) {
+  const socketAddress = (req.socket.remoteAddress ?? "unknown").replace(/^::ffff:/, "");
+  if (!TRUSTED_PROXIES.has(socketAddress)) return socketAddress;
+  const forwarded = String(req.headers["x-forwarded-for"] ?? "")
+    .split(",")
+    .map((a) => a.trim().replace(/^::ffff:/, ""))
+    .filter((a) => isIP(a));
+  for (let i = forwarded.length - 1; i >= 0; i--) if (!TRUSTED_PROXIES.has(forwarded[i])) return forwarded[i];
+  return socketAddress;
+}
+
+/** @param {import("node:http").IncomingMessage} req */
+function requestHeaders(req) {
+  const headers = new Headers();
+  for (let i = 0; i < req.rawHeaders.length; i += 2) {
+    if (req.rawHeaders[i].toLowerCase() === CLIENT_ADDRESS_HEADER) continue;
+    try {
+      headers.append(req.rawHeaders[i], req.rawHeaders[i + 1]);
+    } catch {
+      throw new BadRequest("bad header");
+    }
+  }
+  headers.set(CLIENT_ADDRESS_HEADER, clientAddress(req));
+  return headers;
+}
+
+/**
+ * Read up to `limit` bytes of the body into memory; null when it is larger (the rest, up to
+ * DRAIN_ALLOWANCE, is read and dropped, then the connection is cut).
+ * @param {import("node:http").IncomingMessage} req @param {number} limit @returns {Promise<Buffer | null>}
+ */
+function readBody(req, limit) {
   return new Promise((resolve, reject) => {
+    const declared = Number(req.headers["content-length"]);
+    if (declared > limit + DRAIN_ALLOWANCE) {
+      req.socket.destroySoon?.();
+      resolve(null);
+      return;
+    }
     /** @type {Buffer[]} */
     const chunks = [];
     let size = 0;
     req.on("data", (chunk) => {
       size += chunk.length;
-      if (size <= LEAN_BODY_LIMIT) chunks.push(chunk);
-      else if (size > DRAIN_CEILING) req.destroy();
+      if (size <= limit) chunks.push(chunk);
+      else if (size > limit + DRAIN_ALLOWANCE) {
+        req.pause();
+        resolve(null);
+      }
     });
-    req.on("end", () => resolve(size > LEAN_BODY_LIMIT ? null : Buffer.concat(chunks, size)));
+    req.on("end", () => resolve(size > limit ? null : Buffer.concat(chunks, size)));
     req.on("error", reject);
     req.on("close", () => {
       if (!req.complete) resolve(null);
@@ -70,62 +160,118 @@ function readBody(req) {
   });
 }
 
-// The bytes of a lean request's body ride along on the Request under this symbol, and
-// readLimitedBytes (app/.server/http/body.ts) takes them from there instead of reading the
-// Request's body stream. Responses made by jsonResponse (app/.server/device-auth/http.ts) carry
-// their text under it the other way, so it is written without reading the Response's stream.
-const RAW_BODY = Symbol.for("flyball.rawBody");
-
-/** @param {import("node:http").IncomingMessage} req @param {URL} url @param {Buffer | undefined} body */
-function toRequest(req, url, body) {
-  const headers = new Headers();
-  for (let i = 0; i < req.rawHeaders.length; i += 2) headers.append(req.rawHeaders[i], req.rawHeaders[i + 1]);
-  const request = new Request(url, { method: req.method, headers, body });
-  if (body) Object.defineProperty(request, RAW_BODY, { value: body });
-  return request;
+/**
+ * The body as a web stream that follows the reader's pace and fails past BODY_CEILING.
+ * @param {import("node:http").IncomingMessage} req
+ */
+function bodyStream(req) {
+  let size = 0;
+  return new ReadableStream({
+    start(controller) {
+      req.on("data", (chunk) => {
+        size += chunk.length;
+        if (size > BODY_CEILING) {
+          controller.error(new Error("body too large"));
+          req.destroy();
+          return;
+        }
+        controller.enqueue(new Uint8Array(chunk.buffer, chunk.byteOffset, chunk.byteLength));
+        if ((controller.desiredSize ?? 1) <= 0) req.pause();
+      });
+      req.on("end", () => controller.close());
+      req.on("error", (error) => controller.error(error));
+    },
+    pull() {
+      req.resume();
+    },
+    cancel() {
+      req.destroy();
+    },
+  }, { highWaterMark: 4 });
 }
 
-/** @param {import("node:http").ServerResponse} res @param {Response} response */
-async function sendResponse(res, response) {
+// On the lean path the body reaches the route through this symbol instead of the Request's
+// stream: a function that reads it into memory up to the route's limit, called only when the
+// route reads its body (readLimitedBytes in app/.server/http/body.ts). Responses made with
+// jsonResponse carry their text under the same symbol, written here without a stream.
+const RAW_BODY = Symbol.for("flyball.rawBody");
+
+/** @param {import("node:http").IncomingMessage} req @param {URL} url @param {AbortSignal} signal @param {number | null} leanLimit */
+function toRequest(req, url, signal, leanLimit) {
+  const method = req.method ?? "GET";
+  const headers = requestHeaders(req);
+  const hasBody = method !== "GET" && method !== "HEAD";
+  if (leanLimit !== null) {
+    const request = new Request(url, { method, headers, signal });
+    /** @type {Promise<Buffer | null> | undefined} */
+    let pending;
+    if (hasBody) Object.defineProperty(request, RAW_BODY, { value: () => (pending ??= readBody(req, leanLimit)) });
+    return request;
+  }
+  return new Request(url, { method, headers, signal, ...(hasBody ? { body: bodyStream(req), duplex: "half" } : {}) });
+}
+
+const SECURITY_HEADERS = {
+  "x-content-type-options": "nosniff",
+  "referrer-policy": "no-referrer",
+  "x-frame-options": "DENY",
+  ...(OVER_TLS ? { "strict-transport-security": "max-age=31536000; includeSubDomains" } : {}),
+};
+/** For answers that are not documents (the document's own policy, with its nonce, is set in app/entry.server.tsx). */
+const DEFAULT_CSP = "default-src 'none'; frame-ancestors 'none'; base-uri 'none'; form-action 'none'";
+
+/** @param {import("node:http").IncomingMessage} req @param {import("node:http").ServerResponse} res @param {Response} response */
+async function sendResponse(req, res, response) {
   /** @type {Record<string, string | string[]>} */
-  const headers = {};
+  const headers = { ...SECURITY_HEADERS };
   response.headers.forEach((value, key) => {
     if (key !== "set-cookie") headers[key] = value;
   });
+  headers["content-security-policy"] ??= DEFAULT_CSP;
   const cookies = response.headers.getSetCookie();
   if (cookies.length) headers["set-cookie"] = cookies;
   const raw = /** @type {any} */ (response)[RAW_BODY];
-  const body = typeof raw === "string" ? Buffer.from(raw) : response.body ? Buffer.from(await response.arrayBuffer()) : undefined;
-  if (body) headers["content-length"] = String(body.length);
+  if (typeof raw === "string") {
+    const body = Buffer.from(raw);
+    headers["content-length"] = String(body.length);
+    res.writeHead(response.status, headers);
+    res.end(req.method === "HEAD" ? undefined : body);
+    return;
+  }
   res.writeHead(response.status, headers);
-  res.end(body);
+  if (!response.body || req.method === "HEAD") {
+    res.end();
+    return;
+  }
+  const reader = response.body.getReader();
+  try {
+    for (;;) {
+      const { done, value } = await reader.read();
+      if (done) break;
+      if (!res.write(value)) await new Promise((resolve) => res.once("drain", resolve).once("close", resolve));
+      if (res.destroyed) break;
+    }
+  } finally {
+    reader.cancel().catch(() => {});
+    res.end();
+  }
 }
 
-/** @param {any} module @param {import("node:http").IncomingMessage} req @param {import("node:http").ServerResponse} res @param {URL} url */
-async function serveLean(module, req, res, url) {
-  let body;
-  if (req.method !== "GET" && req.method !== "HEAD") {
-    const declared = Number(req.headers["content-length"]);
-    body = declared > DRAIN_CEILING ? null : await readBody(req);
-    if (body === null) {
-      const tooLarge = JSON.stringify({ error: { code: "payload_too_large", message: `The body is larger than ${LEAN_BODY_LIMIT} bytes.` } });
-      res.writeHead(413, { "content-type": "application/json; charset=utf-8", "content-length": Buffer.byteLength(tooLarge), connection: "close" });
-      res.end(tooLarge);
-      return;
-    }
-  }
-  const request = toRequest(req, url, body);
-  const handler = req.method === "GET" || req.method === "HEAD" ? module.loader : module.action;
-  let result;
+/** @param {any} module @param {Request} request */
+async function runLean(module, request) {
+  const handler = request.method === "GET" || request.method === "HEAD" ? module.loader : module.action;
+  if (!handler) return Response.json({ error: { code: "method_not_allowed", message: "Method not allowed." } }, { status: 405 });
   try {
-    result = handler ? await handler({ request, params: {}, context: {} }) : Response.json({ error: { code: "method_not_allowed", message: "Method not allowed." } }, { status: 405 });
+    return await handler({ request, params: {}, context: {} });
   } catch (thrown) {
-    result = thrown;
+    if (thrown instanceof Response) return thrown;
+    throw thrown;
   }
-  if (result instanceof Response) return sendResponse(res, result);
-  console.error("device route failed", result);
-  return sendResponse(res, Response.json({ error: { code: "internal_error", message: "Something went wrong on our side." } }, { status: 500 }));
 }
+
+/** @param {string} code @param {string} message */
+const jsonError = (status, code, message) =>
+  new Response(JSON.stringify({ error: { code, message } }), { status, headers: { "content-type": "application/json; charset=utf-8", "cache-control": "no-store" } });
 
 /** @type {Record<string, string>} */
 const MIME = {
@@ -163,30 +309,64 @@ function serveStatic(req, res, url) {
   }
   const immutable = pathname.startsWith("/assets/");
   res.writeHead(200, {
+    ...SECURITY_HEADERS,
+    "content-security-policy": DEFAULT_CSP,
     "content-type": MIME[path.extname(file)] ?? "application/octet-stream",
     "content-length": size,
     "cache-control": immutable ? "public, max-age=31536000, immutable" : "public, max-age=3600",
   });
   if (req.method === "HEAD") res.end();
-  else createReadStream(file).pipe(res);
+  else createReadStream(file).on("error", () => res.destroy()).pipe(res);
   return true;
 }
 
-const server = http.createServer((req, res) => {
-  const url = new URL(req.url ?? "/", `http://${req.headers.host ?? `${host}:${port}`}`);
-  const module = lean.get(url.pathname);
-  if (module) {
-    serveLean(module, req, res, url).catch((error) => {
-      console.error(error);
-      if (!res.headersSent) res.writeHead(500).end();
-    });
-    return;
+/** @param {import("node:http").IncomingMessage} req @param {import("node:http").ServerResponse} res */
+async function serve(req, res) {
+  let url;
+  try {
+    url = requestUrl(req.url);
+  } catch {
+    return sendResponse(req, res, jsonError(400, "bad_request", "The request target is not valid."));
   }
-  if (serveStatic(req, res, url)) return;
-  void renderApp(req, res);
-});
+  const module = lean.get(url.pathname);
+  if (!module && serveStatic(req, res, url)) return;
+  const controller = new AbortController();
+  res.on("close", () => controller.abort());
+  let request;
+  try {
+    request = toRequest(req, url, controller.signal, module ? (DEVICE_BODY_LIMITS[url.pathname] ?? 0) : null);
+  } catch (error) {
+    if (!(error instanceof BadRequest)) throw error;
+    return sendResponse(req, res, jsonError(400, "bad_request", "A request header is not valid."));
+  }
+  const response = module ? await runLean(module, request) : await handleRequest(request);
+  if (!(response instanceof Response)) throw new Error("the route did not answer with a Response");
+  await sendResponse(req, res, response);
+}
+
+const server = http.createServer(
+  { headersTimeout: 20_000, requestTimeout: 60_000, maxHeaderSize: 16 * 1024 },
+  (req, res) => {
+    serve(req, res).catch((error) => {
+      console.error("request failed", error);
+      if (!res.headersSent) sendResponse(req, res, jsonError(500, "internal_error", "Something went wrong on our side.")).catch(() => res.destroy());
+      else res.destroy();
+    });
+  },
+);
 server.keepAliveTimeout = 65_000;
+server.maxConnections = Number(process.env.MAX_CONNECTIONS ?? 2000);
+server.on("clientError", (error, socket) => {
+  if (socket.writable && !/** @type {any} */ (error).code?.startsWith("ERR_HTTP_REQUEST_TIMEOUT")) {
+    socket.end("HTTP/1.1 400 Bad Request\r\nconnection: close\r\ncontent-length: 0\r\n\r\n");
+  } else socket.destroy();
+});
 server.listen(port, host, () => console.log(`Flyball app at http://${host}:${port}/ (device API on the lean path: ${[...lean.keys()].join(", ")})`));
+
+// A failure that escapes a request (a stream error after the answer began, say) is logged; it
+// must not take the other requests down with it.
+process.on("uncaughtException", (error) => console.error("uncaught", error));
+process.on("unhandledRejection", (error) => console.error("unhandled rejection", error));
 
 for (const signal of ["SIGINT", "SIGTERM"]) {
   process.on(signal, () => {

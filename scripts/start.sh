@@ -18,6 +18,7 @@ DATA_DIR="$ROOT/data/postgres"
 
 ensure_node_modules
 ensure_auth_secret
+ensure_key_encryption_key
 
 echo "Starting PostgreSQL on 127.0.0.1:$PGPORT_FLYBALL…"
 pg_ensure_running "$DATA_DIR" "$PGPORT_FLYBALL" on

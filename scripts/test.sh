@@ -14,6 +14,9 @@ export RESEND_FAKE_DIR="$ROOT/data/test-resend-$RESEND_FAKE_PORT"
 export BETTER_AUTH_URL="http://127.0.0.1:$TEST_APP_PORT"
 export TRUSTED_ORIGINS="http://localhost:$TEST_APP_PORT"
 export BETTER_AUTH_SECRET="test-secret-not-for-production-0123456789abcdef"
+export FLYBALL_KEY_ENCRYPTION_KEY="dGVzdC1rZXktZW5jcnlwdGlvbi1rZXktMzItYnl0ZXM"
+# Sign-in and e-mail limits are off for the suite (tests sign in hundreds of times from one
+# address); tests/integration/attempt-limits.test.ts runs an app instance with them on.
 export FLYBALL_DISABLE_RATE_LIMIT=1
 DATA_DIR="$ROOT/data/test-postgres-$TEST_PG_PORT"
 REPORTS="$ROOT/data/test-reports-$TEST_APP_PORT"

@@ -2,6 +2,7 @@
 // (no e-mail, no HTTP) and returns what it created.
 import { hashPassword } from "better-auth/crypto";
 import type { Db } from "~/.server/db/client";
+import { createSigningKey } from "~/.server/device-auth/signing-keys";
 import { account, customer, loopTemplate, machineModel, member, organisation, site, siteAssignment, user } from "~/.server/db/schema";
 import type { GainEnvelope, HealthThresholds, StoredGains } from "~/.server/db/schema";
 import { registerMachine } from "~/.server/fleet/machines";
@@ -30,6 +31,7 @@ export async function createUser(
 export async function createOrganisation(db: Db, { name, slug }: { name: string; slug: string }) {
   const id = crypto.randomUUID();
   await db.insert(organisation).values({ id, name, slug });
+  await createSigningKey(db, { organisationId: id });
   return { id, name, slug };
 }
 

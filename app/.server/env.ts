@@ -12,6 +12,10 @@ export const EnvSchema = z.object({
   RESEND_API_KEY: z.string().default("re_flyball_local"),
   RESEND_BASE_URL: z.string().url().default("http://127.0.0.1:3025"),
   MAIL_FROM: z.string().default("Flyball <no-reply@flyball.example>"),
+  /** 32 bytes, base64url: encrypts organisation signing keys at rest (app/.server/device-auth/signing-keys.ts). */
+  FLYBALL_KEY_ENCRYPTION_KEY: z.string().optional(),
+  /** Addresses of reverse proxies whose X-Forwarded-For is believed, comma separated (read by scripts/serve.js). */
+  TRUSTED_PROXIES: z.string().default(""),
   STRIPE_SECRET_KEY: z.string().default("sk_test_flyball_local"),
   STRIPE_BASE_URL: z.string().url().default("http://127.0.0.1:3026"),
 });

@@ -16,6 +16,18 @@ ensure_auth_secret() {
   export BETTER_AUTH_SECRET
 }
 
+# The key that encrypts organisation signing keys at rest: generated once, kept outside git and
+# outside the database (a dump alone must not be able to sign a device configuration).
+ensure_key_encryption_key() {
+  mkdir -p .local
+  if [[ ! -s .local/key-encryption-key ]]; then
+    node -e "process.stdout.write(require('node:crypto').randomBytes(32).toString('base64url'))" > .local/key-encryption-key
+    chmod 600 .local/key-encryption-key
+  fi
+  FLYBALL_KEY_ENCRYPTION_KEY="${FLYBALL_KEY_ENCRYPTION_KEY:-$(cat .local/key-encryption-key)}"
+  export FLYBALL_KEY_ENCRYPTION_KEY
+}
+
 CHILD_PIDS=()
 start_child() {
   local name="$1"; shift

@@ -77,10 +77,10 @@ export class DeviceClient {
     });
   }
 
-  async ack(body: { loop: string; version: number; status: "applied" | "rejected"; reason?: string }): Promise<Response> {
+  async ack(body: { loop: string; version: number; status: "applied" | "rejected"; reason?: string }, token?: string): Promise<Response> {
     return this.fetch("/api/v1/device/config/ack", {
       method: "POST",
-      headers: { "content-type": "application/json", authorization: `Bearer ${await this.token()}` },
+      headers: { "content-type": "application/json", authorization: `Bearer ${token ?? (await this.token())}` },
       body: JSON.stringify(body),
     });
   }

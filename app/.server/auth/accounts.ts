@@ -5,7 +5,10 @@ import { getDb } from "~/.server/db/client";
 import { user } from "~/.server/db/schema";
 import { EmailDeliveryError } from "~/.server/email/send-email";
 import { getAuth, MIN_PASSWORD_LENGTH } from "./auth";
+import { safeNext } from "~/lib/web/safe-next";
 import { readAuthResponse, type AuthResult } from "./call-auth";
+
+export { safeNext };
 
 export const PasswordSchema = z
   .string()
@@ -18,12 +21,6 @@ export const SignUpSchema = z.object({
   password: PasswordSchema,
   next: z.string().optional(),
 });
-
-/** Only same-site paths may be used as a destination after sign-in. */
-export function safeNext(next: string | null | undefined, fallback = "/"): string {
-  if (!next || !next.startsWith("/") || next.startsWith("//") || next.startsWith("/\\")) return fallback;
-  return next;
-}
 
 export async function isEmailTaken(email: string): Promise<boolean> {
   const [row] = await getDb().select({ id: user.id }).from(user).where(eq(user.email, email.toLowerCase())).limit(1);

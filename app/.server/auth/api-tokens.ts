@@ -7,7 +7,8 @@ import { z } from "zod";
 import type { Membership } from "~/.server/auth/guards";
 import { recordAudit } from "~/.server/audit/record-audit";
 import type { Db } from "~/.server/db/client";
-import { apiToken, user } from "~/.server/db/schema";
+import { apiToken, member, user } from "~/.server/db/schema";
+import { can } from "~/lib/access/capabilities";
 import { TOKEN_SCOPES, type TokenScope } from "~/lib/access/api-token-scope";
 
 const TOKEN_PATTERN = /^fbk_[A-Za-z0-9_-]{43}$/;
@@ -18,6 +19,11 @@ const TOUCH_INTERVAL_MS = 60_000;
 export const CreateApiTokenSchema = z.object({
   name: z.string("Give the token a name.").trim().min(1, "Give the token a name.").max(80, "Keep the name under 80 characters."),
   scope: z.enum(TOKEN_SCOPES, "Choose read or write."),
+  /** Days until the token stops working; blank for no expiry. */
+  expiresInDays: z.preprocess(
+    (value) => (value === "" || value === null ? undefined : value),
+    z.coerce.number("Enter a number of days.").int("Enter whole days.").min(1, "At least 1 day.").max(730, "At most 730 days.").optional(),
+  ),
 });
 
 export class ApiTokenRuleError extends Error {
@@ -38,12 +44,13 @@ export function looksLikeApiToken(secret: string): boolean {
 export async function createApiToken(db: Db, actor: Membership, input: z.infer<typeof CreateApiTokenSchema>) {
   const secret = `fbk_${randomBytes(32).toString("base64url")}`;
   const prefix = secret.slice(4, 4 + PREFIX_LENGTH);
+  const expiresAt = input.expiresInDays ? new Date(Date.now() + input.expiresInDays * 86_400_000) : null;
   const [row] = await db
     .insert(apiToken)
-    .values({ organisationId: actor.organisation.id, name: input.name, scope: input.scope, tokenHash: hashApiToken(secret), prefix, createdBy: actor.user.id })
+    .values({ organisationId: actor.organisation.id, name: input.name, scope: input.scope, tokenHash: hashApiToken(secret), prefix, createdBy: actor.user.id, expiresAt })
     .returning({ id: apiToken.id });
-  await recordAudit(db, { organisationId: actor.organisation.id, actor: actor.user.id, action: "api_token.created", targetType: "api_token", targetId: row!.id, detail: { name: input.name, scope: input.scope, prefix } });
-  return { id: row!.id, name: input.name, scope: input.scope, prefix, secret };
+  await recordAudit(db, { organisationId: actor.organisation.id, actor: actor.user.id, action: "api_token.created", targetType: "api_token", targetId: row!.id, detail: { name: input.name, scope: input.scope, prefix, expiresAt: expiresAt?.toISOString() ?? null } });
+  return { id: row!.id, name: input.name, scope: input.scope, prefix, secret, expiresAt };
 }
 
 export async function listApiTokens(db: Db, { organisationId }: { organisationId: string }) {
@@ -55,6 +62,7 @@ export async function listApiTokens(db: Db, { organisationId }: { organisationId
       prefix: apiToken.prefix,
       createdAt: apiToken.createdAt,
       lastUsedAt: apiToken.lastUsedAt,
+      expiresAt: apiToken.expiresAt,
       revokedAt: apiToken.revokedAt,
       createdBy: sql<string>`coalesce(${user.name}, 'Former member')`,
     })
@@ -77,17 +85,30 @@ export async function revokeApiToken(db: Db, actor: Membership, tokenId: string)
 export type ApiTokenHolder = { id: string; organisationId: string; scope: TokenScope | string; name: string };
 
 /**
- * The live token behind a secret, or null (malformed, unknown or revoked). Marks it used,
- * at most once a minute, and only when the row read shows it is due.
+ * The live token behind a secret, or null: malformed, unknown, revoked, expired, or its
+ * creator is no longer a member allowed to hold tokens (left, or lost members:manage). Marks
+ * it used, at most once a minute, and only when the row read shows it is due.
  */
 export async function findApiToken(db: Db, secret: string, now = new Date()): Promise<ApiTokenHolder | null> {
   if (!looksLikeApiToken(secret)) return null;
   const [row] = await db
-    .select({ id: apiToken.id, organisationId: apiToken.organisationId, scope: apiToken.scope, name: apiToken.name, lastUsedAt: apiToken.lastUsedAt, revokedAt: apiToken.revokedAt })
+    .select({
+      id: apiToken.id,
+      organisationId: apiToken.organisationId,
+      scope: apiToken.scope,
+      name: apiToken.name,
+      lastUsedAt: apiToken.lastUsedAt,
+      revokedAt: apiToken.revokedAt,
+      expiresAt: apiToken.expiresAt,
+      creatorRole: member.role,
+    })
     .from(apiToken)
+    .leftJoin(member, and(eq(member.organizationId, apiToken.organisationId), eq(member.userId, apiToken.createdBy)))
     .where(eq(apiToken.tokenHash, hashApiToken(secret)))
     .limit(1);
   if (!row || row.revokedAt) return null;
+  if (row.expiresAt && row.expiresAt.getTime() <= now.getTime()) return null;
+  if (!can(row.creatorRole, "members:manage")) return null;
   if (!row.lastUsedAt || now.getTime() - row.lastUsedAt.getTime() >= TOUCH_INTERVAL_MS) {
     const due = new Date(now.getTime() - TOUCH_INTERVAL_MS);
     // The condition repeats the check so concurrent requests write once between them.

@@ -6,6 +6,7 @@ import * as schema from "~/.server/db/schema";
 import { sendEmail } from "~/.server/email/send-email";
 import { passwordResetEmail, verificationEmail } from "~/.server/email/templates";
 import { env } from "~/.server/env";
+import { CLIENT_ADDRESS_HEADER } from "./attempt-limits";
 import { ac, roles } from "./roles";
 
 export const MIN_PASSWORD_LENGTH = 10;
@@ -46,7 +47,8 @@ function createAuth() {
     session: { cookieCache: { enabled: false } },
     rateLimit: { enabled: settings.NODE_ENV === "production" && !process.env.FLYBALL_DISABLE_RATE_LIMIT },
     advanced: {
-      ipAddress: { ipAddressHeaders: ["x-forwarded-for"] },
+      // scripts/serve.js sets this header from the socket (or a trusted proxy); clients cannot.
+      ipAddress: { ipAddressHeaders: [CLIENT_ADDRESS_HEADER] },
       database: { generateId: () => crypto.randomUUID() },
     },
     plugins: [

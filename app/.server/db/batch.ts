@@ -6,6 +6,10 @@
 // Built on DataLoader (no caching: every item is new). Its batch schedule is held back while
 // `maxInFlight` statements are running, so under load the batches grow by themselves and at
 // rest an item waits at most one turn of the event loop.
+//
+// One bad item must not fail the others: when a grouped statement fails for any reason but a
+// retryable conflict, its items are run again one at a time, so only the culprit's caller sees
+// the error.
 import DataLoader from "dataloader";
 
 export type Batcher<I, O> = { run(item: I): Promise<O> };
@@ -29,7 +33,7 @@ export function createBatcher<I, O>(
   const loader = new DataLoader<I, O>(
     async (items) => {
       try {
-        return await runWithRetry(runBatch, items);
+        return await runIsolated(runBatch, items);
       } finally {
         release();
       }
@@ -50,6 +54,23 @@ export function createBatcher<I, O>(
     },
   );
   return { run: (item) => loader.load(item) };
+}
+
+async function runIsolated<I, O>(runBatch: (items: readonly I[]) => Promise<readonly (O | Error)[]>, items: readonly I[]): Promise<readonly (O | Error)[]> {
+  try {
+    return await runWithRetry(runBatch, items);
+  } catch (error) {
+    if (items.length === 1) throw error;
+    const answers: (O | Error)[] = [];
+    for (const item of items) {
+      try {
+        answers.push((await runWithRetry(runBatch, [item]))[0]);
+      } catch (alone) {
+        answers.push(alone instanceof Error ? alone : new Error(String(alone)));
+      }
+    }
+    return answers;
+  }
 }
 
 async function runWithRetry<I, O>(runBatch: (items: readonly I[]) => Promise<readonly (O | Error)[]>, items: readonly I[]) {

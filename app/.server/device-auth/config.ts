@@ -8,7 +8,7 @@ import type { z } from "zod";
 import { recordAudit } from "~/.server/audit/record-audit";
 import { getDb, getPool } from "~/.server/db/client";
 import type { AckRequestSchema } from "./schemas";
-import { getSigningKey } from "./signing-keys";
+import { loadSigningKey } from "./signing-keys";
 import type { AuthenticatedDevice, DeviceContext } from "./tokens";
 
 export const CONFIG_LIFETIME_S = 24 * 3600;
@@ -38,7 +38,7 @@ function matches(ifNoneMatch: string | null, etag: string): boolean {
  * configuration costs no query of its own.
  */
 export async function getDeviceConfig(ctx: AuthenticatedDevice, ifNoneMatch: string | null, now = new Date()) {
-  const key = await getSigningKey(getDb(), ctx.organisationId);
+  const key = await loadSigningKey(getDb(), ctx.organisationId);
   const etag = configEtag(key.kid, ctx.deviceId, ctx.configState);
   if (matches(ifNoneMatch, etag)) return { notModified: true as const, etag };
   const rows = await getPool().query<LoopRow>({ name: "device_config_loops", text: LOOPS_SQL, values: [ctx.organisationId, ctx.machineId] });

@@ -188,7 +188,8 @@ export async function ingestDigests(token: VerifiedToken, items: unknown[], nowM
       continue;
     }
     seen.add(key);
-    valid.push({ loopId, d });
+    // Times go to SQL in UTC: PostgreSQL refuses offsets that ISO 8601 allows (beyond ±15:59).
+    valid.push({ loopId, d: { ...d, windowStart: new Date(start).toISOString(), windowEnd: new Date(end).toISOString() } });
   }
   // Even with nothing valid to store the token is checked and its jti used up.
   const outcome = await ingest.run({ token, rows: valid });

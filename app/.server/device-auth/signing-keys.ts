@@ -1,43 +1,81 @@
-// Each organisation's Ed25519 key for signing device configurations. Created with the
-// organisation's first need for it (the demo seed creates it up front); the public halves are
-// published as a JWKS at /api/v1/o/:slug/jwks.json.
-import { and, asc, eq } from "drizzle-orm";
+// Each organisation's Ed25519 key for signing device configurations. Made when the
+// organisation is made (createSigningKey; scripts/migrate.ts gives one to any organisation
+// without), never on a read; the public halves are published as a JWKS at
+// /api/v1/o/:slug/jwks.json.
+//
+// Private keys are stored encrypted (AES-256-GCM under the key-encryption key in
+// FLYBALL_KEY_ENCRYPTION_KEY, which npm start generates into .local/ and which never enters the
+// database): a dump of the database alone cannot sign a configuration.
+import { createCipheriv, createDecipheriv, randomBytes } from "node:crypto";
+import { and, asc, eq, notExists, sql } from "drizzle-orm";
 import { exportJWK, generateKeyPair, importJWK, type CryptoKey } from "jose";
 import type { Db } from "~/.server/db/client";
 import { organisation, organisationSigningKey } from "~/.server/db/schema";
 
 export type SigningKey = { kid: string; alg: "EdDSA"; privateKey: CryptoKey | Uint8Array };
 
+/** The stored form of a private JWK: `{ enc, iv, tag, ct }`, all base64url. */
+export type SealedJwk = { enc: "A256GCM"; iv: string; tag: string; ct: string };
+
 const cache = new Map<string, Promise<SigningKey>>();
+
+export class MissingSigningKeyError extends Error {}
+
+function keyEncryptionKey(): Buffer {
+  const text = process.env.FLYBALL_KEY_ENCRYPTION_KEY ?? "";
+  const key = Buffer.from(text, "base64url");
+  if (key.length !== 32) throw new Error("FLYBALL_KEY_ENCRYPTION_KEY must be 32 bytes in base64url (npm start generates one into .local/key-encryption-key).");
+  return key;
+}
+
+/** The organisation id is bound in as associated data, so a sealed key cannot be moved to another tenant. */
+export function sealJwk(jwk: Record<string, string>, organisationId: string): SealedJwk {
+  const iv = randomBytes(12);
+  const cipher = createCipheriv("aes-256-gcm", keyEncryptionKey(), iv);
+  cipher.setAAD(Buffer.from(organisationId));
+  const ct = Buffer.concat([cipher.update(JSON.stringify(jwk), "utf8"), cipher.final()]);
+  return { enc: "A256GCM", iv: iv.toString("base64url"), tag: cipher.getAuthTag().toString("base64url"), ct: ct.toString("base64url") };
+}
+
+export function openJwk(sealed: SealedJwk, organisationId: string): Record<string, string> {
+  const decipher = createDecipheriv("aes-256-gcm", keyEncryptionKey(), Buffer.from(sealed.iv, "base64url"));
+  decipher.setAAD(Buffer.from(organisationId));
+  decipher.setAuthTag(Buffer.from(sealed.tag, "base64url"));
+  return JSON.parse(Buffer.concat([decipher.update(Buffer.from(sealed.ct, "base64url")), decipher.final()]).toString("utf8")) as Record<string, string>;
+}
+
+export function isSealed(stored: Record<string, string>): boolean {
+  return stored.enc === "A256GCM" && typeof stored.ct === "string";
+}
 
 export async function createSigningKey(db: Db, { organisationId }: { organisationId: string }) {
   const { publicKey, privateKey } = await generateKeyPair("EdDSA", { crv: "Ed25519", extractable: true });
   const [row] = await db
     .insert(organisationSigningKey)
-    .values({ organisationId, alg: "EdDSA", publicJwk: (await exportJWK(publicKey)) as Record<string, string>, privateJwk: (await exportJWK(privateKey)) as Record<string, string> })
+    .values({
+      organisationId,
+      alg: "EdDSA",
+      publicJwk: (await exportJWK(publicKey)) as Record<string, string>,
+      privateJwk: sealJwk((await exportJWK(privateKey)) as Record<string, string>, organisationId),
+    })
     .returning({ id: organisationSigningKey.id });
   return row.id;
 }
 
 async function loadActiveKey(db: Db, organisationId: string): Promise<SigningKey> {
-  const select = () =>
-    db
-      .select({ id: organisationSigningKey.id, privateJwk: organisationSigningKey.privateJwk })
-      .from(organisationSigningKey)
-      .where(and(eq(organisationSigningKey.organisationId, organisationId), eq(organisationSigningKey.status, "active")))
-      .orderBy(asc(organisationSigningKey.createdAt), asc(organisationSigningKey.id))
-      .limit(1);
-  let [row] = await select();
-  if (!row) {
-    await createSigningKey(db, { organisationId });
-    // Two processes may race here; both then pick the oldest active key.
-    [row] = await select();
-  }
-  return { kid: row.id, alg: "EdDSA", privateKey: await importJWK({ ...row.privateJwk, alg: "EdDSA" }, "EdDSA") };
+  const [row] = await db
+    .select({ id: organisationSigningKey.id, privateJwk: organisationSigningKey.privateJwk })
+    .from(organisationSigningKey)
+    .where(and(eq(organisationSigningKey.organisationId, organisationId), eq(organisationSigningKey.status, "active")))
+    .orderBy(asc(organisationSigningKey.createdAt), asc(organisationSigningKey.id))
+    .limit(1);
+  if (!row) throw new MissingSigningKeyError(`organisation ${organisationId} has no active signing key`);
+  const jwk = isSealed(row.privateJwk) ? openJwk(row.privateJwk as unknown as SealedJwk, organisationId) : row.privateJwk;
+  return { kid: row.id, alg: "EdDSA", privateKey: await importJWK({ ...jwk, alg: "EdDSA" }, "EdDSA") };
 }
 
 /** The organisation's active signing key (cached per process; keys are only ever added). */
-export function getSigningKey(db: Db, organisationId: string): Promise<SigningKey> {
+export function loadSigningKey(db: Db, organisationId: string): Promise<SigningKey> {
   let pending = cache.get(organisationId);
   if (!pending) {
     pending = loadActiveKey(db, organisationId);
@@ -47,15 +85,38 @@ export function getSigningKey(db: Db, organisationId: string): Promise<SigningKe
   return pending;
 }
 
-/** The JWKS of an organisation by slug, or null when there is no such organisation. */
+/** The JWKS of an organisation by slug, or null when there is no such organisation. Reads only. */
 export async function getOrganisationJwks(db: Db, slug: string) {
   const [org] = await db.select({ id: organisation.id }).from(organisation).where(eq(organisation.slug, slug)).limit(1);
   if (!org) return null;
-  await getSigningKey(db, org.id);
   const rows = await db
     .select({ id: organisationSigningKey.id, alg: organisationSigningKey.alg, publicJwk: organisationSigningKey.publicJwk })
     .from(organisationSigningKey)
     .where(eq(organisationSigningKey.organisationId, org.id))
     .orderBy(asc(organisationSigningKey.createdAt));
   return { keys: rows.map((r) => ({ kty: r.publicJwk.kty, crv: r.publicJwk.crv, x: r.publicJwk.x, kid: r.id, alg: r.alg, use: "sig" })) };
+}
+
+/**
+ * Bring stored keys up to date (run by scripts/migrate.ts after the SQL migrations): seal any
+ * private key still stored in the clear, and give every organisation without a key its first.
+ * Idempotent. Answers what it did.
+ */
+export async function upgradeSigningKeys(db: Db): Promise<{ sealed: number; created: number }> {
+  let sealed = 0;
+  const rows = await db.select({ organisationId: organisationSigningKey.organisationId, id: organisationSigningKey.id, privateJwk: organisationSigningKey.privateJwk }).from(organisationSigningKey);
+  for (const row of rows) {
+    if (isSealed(row.privateJwk)) continue;
+    await db
+      .update(organisationSigningKey)
+      .set({ privateJwk: sealJwk(row.privateJwk, row.organisationId) })
+      .where(and(eq(organisationSigningKey.organisationId, row.organisationId), eq(organisationSigningKey.id, row.id)));
+    sealed += 1;
+  }
+  const keyless = await db
+    .select({ id: organisation.id })
+    .from(organisation)
+    .where(notExists(db.select({ one: sql`1` }).from(organisationSigningKey).where(eq(organisationSigningKey.organisationId, organisation.id))));
+  for (const org of keyless) await createSigningKey(db, { organisationId: org.id });
+  return { sealed, created: keyless.length };
 }

@@ -25,6 +25,13 @@ export type AuthenticatedDevice = DeviceContext & { configState: string | null }
 type CachedKey = { organisationId: string; machineId: string; alg: string; key: CryptoKey | Uint8Array };
 const keyCache = new Map<string, CachedKey>();
 const KEY_CACHE_LIMIT = 50_000;
+/** Device ids asked for and not found, remembered briefly so made-up ids cost no query each. */
+const unknownKids = new Map<string, number>();
+const UNKNOWN_KID_TTL_MS = 60_000;
+const UNKNOWN_KID_LIMIT = 10_000;
+
+/** Token ids: URL-safe characters only, so none can upset a statement shared with other devices. */
+export const JTI_PATTERN = /^[A-Za-z0-9._~-]{8,128}$/;
 
 const UUID = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/;
 
@@ -42,13 +49,20 @@ class Refusal extends Error {
 async function loadKey(deviceId: string): Promise<CachedKey | null> {
   const cached = keyCache.get(deviceId);
   if (cached) return cached;
+  const missedAt = unknownKids.get(deviceId);
+  if (missedAt !== undefined && Date.now() - missedAt < UNKNOWN_KID_TTL_MS) return null;
   const result = await getPool().query<{ organisation_id: string; machine_id: string; alg: string; public_jwk: Record<string, string> }>({
     name: "device_key_by_id",
     text: "select organisation_id, machine_id, alg, public_jwk from device where id = $1",
     values: [deviceId],
   });
   const row = result.rows[0];
-  if (!row) return null;
+  if (!row) {
+    if (unknownKids.size >= UNKNOWN_KID_LIMIT) unknownKids.clear();
+    unknownKids.set(deviceId, Date.now());
+    return null;
+  }
+  unknownKids.delete(deviceId);
   const key = await importJWK({ ...row.public_jwk, alg: row.alg }, row.alg);
   const entry = { organisationId: row.organisation_id, machineId: row.machine_id, alg: row.alg, key };
   if (keyCache.size >= KEY_CACHE_LIMIT) keyCache.clear();
@@ -242,7 +256,7 @@ async function verify(request: Request, now: Date): Promise<VerifiedToken> {
   if (exp - iat > MAX_TOKEN_LIFETIME_S) throw new Refusal("token_lifetime_too_long");
   if (exp <= iat) throw new Refusal("token_expired");
   const jti = payload.jti;
-  if (typeof jti !== "string" || jti.length < 8 || jti.length > 128) throw new Refusal("bad_jti");
+  if (typeof jti !== "string" || !JTI_PATTERN.test(jti)) throw new Refusal("bad_jti");
   // The jti is kept until the token would be refused as expired anyway.
   return { organisationId: key.organisationId, deviceId, machineId: key.machineId, jti, expiresAt: new Date((exp + CLOCK_SKEW_S) * 1000) };
 }
@@ -250,4 +264,5 @@ async function verify(request: Request, now: Date): Promise<VerifiedToken> {
 /** Forget cached keys (tests, or after a device row is deleted). */
 export function clearDeviceKeyCache(): void {
   keyCache.clear();
+  unknownKids.clear();
 }

@@ -26,7 +26,11 @@ export async function listCustomers(db: Db, scope: SiteScope, { page, pageSize }
       id: customer.id,
       name: customer.name,
       createdAt: customer.createdAt,
-      siteCount: sql<number>`(select count(*)::int from ${site} s where s.organisation_id = ${customer.organisationId} and s.customer_id = ${customer.id})`,
+      // A site manager counts only the sites assigned to them.
+      siteCount:
+        scope.siteIds === null
+          ? sql<number>`(select count(*)::int from ${site} s where s.organisation_id = ${customer.organisationId} and s.customer_id = ${customer.id})`
+          : sql<number>`(select count(*)::int from ${site} s where s.organisation_id = ${customer.organisationId} and s.customer_id = ${customer.id} and s.id in (${sql.join(scope.siteIds.map((id) => sql`${id}::uuid`), sql`, `)}))`,
     })
     .from(customer)
     .where(and(...where))
@@ -148,10 +152,23 @@ export async function listRegistryOptions(db: Db, scope: SiteScope) {
     .where(and(...siteWhere))
     .orderBy(asc(customer.name), asc(site.name));
   const customers = [...new Map(sites.map((s) => [s.customerId, { id: s.customerId, name: s.customerName }])).values()];
+  // A site manager's filters name only the models their sites run.
+  const modelWhere: SQL[] = [eq(machineModel.organisationId, scope.organisationId)];
+  if (scope.siteIds !== null) {
+    modelWhere.push(
+      inArray(
+        machineModel.id,
+        db
+          .select({ id: machine.modelId })
+          .from(machine)
+          .where(and(eq(machine.organisationId, scope.organisationId), scope.siteIds.length ? inArray(machine.siteId, scope.siteIds) : sql`false`)),
+      ),
+    );
+  }
   const models = await db
     .select({ id: machineModel.id, name: machineModel.name })
     .from(machineModel)
-    .where(eq(machineModel.organisationId, scope.organisationId))
+    .where(and(...modelWhere))
     .orderBy(asc(machineModel.name));
   return { sites, customers, models };
 }

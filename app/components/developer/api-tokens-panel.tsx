@@ -15,6 +15,7 @@ export type ApiTokenRow = {
   createdBy: string;
   createdAt: Date | string;
   lastUsedAt: Date | string | null;
+  expiresAt: Date | string | null;
   revokedAt: Date | string | null;
 };
 
@@ -56,7 +57,7 @@ export function ApiTokensPanel({ tokens, manage, slug, actionData }: { tokens: A
         <h2 id="api-tokens-heading" className="font-semibold">API tokens</h2>
         <p className="mt-1 max-w-3xl text-sm text-ink-soft">
           For your own systems calling the management API (<code className="font-mono text-xs">/api/v1/o/{slug}/…</code>) and the compute API. Send
-          {" "}<code className="whitespace-nowrap font-mono text-xs">Authorization: Bearer fbk_…</code>. A token belongs to the organisation, not to the person who made it, and never manages members, billing or the audit log.
+          {" "}<code className="whitespace-nowrap font-mono text-xs">Authorization: Bearer fbk_…</code>. A token never manages members, billing or the audit log, and it stops working when it expires, is revoked, or the person who made it leaves or no longer manages members.
         </p>
       </div>
       {actionData?.created ? <OneTimeSecret name={actionData.created.name} secret={actionData.created.secret} /> : actionData ? <Notice tone={actionData.ok ? "success" : "error"}>{actionData.message}</Notice> : null}
@@ -67,6 +68,7 @@ export function ApiTokensPanel({ tokens, manage, slug, actionData }: { tokens: A
           <SelectField className="sm:w-80" label="Scope" name="scope" defaultValue="read" error={actionData?.errors?.scope} help={<>Read: fleet, loops, findings.<br />Read and write: also registry, machines, bench.</>}>
             {TOKEN_SCOPES.map((s) => <option key={s} value={s} title={TOKEN_SCOPE_HELP[s]}>{TOKEN_SCOPE_LABELS[s]}</option>)}
           </SelectField>
+          <Field className="sm:w-40" label="Expires after" name="expiresInDays" type="number" min={1} max={730} unit="days" placeholder="never" error={actionData?.errors?.expiresInDays} help="Blank: no expiry." />
           <Button type="submit" className="sm:mt-6" disabled={busy}>{busy ? "Creating…" : "Create token"}</Button>
         </Form>
       ) : null}
@@ -105,8 +107,13 @@ export function ApiTokensPanel({ tokens, manage, slug, actionData }: { tokens: A
                   <td className="px-3 py-2.5 align-top sm:px-4">
                     {t.revokedAt ? (
                       <span>Revoked<span className="block text-xs tabular md:whitespace-nowrap">{format(t.revokedAt)}</span></span>
+                    ) : t.expiresAt && new Date(t.expiresAt).getTime() <= Date.now() ? (
+                      <span>Expired<span className="block text-xs tabular md:whitespace-nowrap">{format(t.expiresAt)}</span></span>
                     ) : (
-                      <span className="text-steady">Active</span>
+                      <span className="text-steady">
+                        Active
+                        {t.expiresAt ? <span className="block text-xs text-ink-soft tabular md:whitespace-nowrap">until {format(t.expiresAt)}</span> : null}
+                      </span>
                     )}
                   </td>
                   {manage ? (

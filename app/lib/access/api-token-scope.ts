@@ -17,8 +17,8 @@ export const TOKEN_SCOPE_HELP: Record<TokenScope, string> = {
 };
 
 const SCOPE_TABLE: Record<TokenScope, readonly Capability[]> = {
-  read: ["fleet:read"],
-  write: ["fleet:read", "registry:manage", "machines:manage", "tuning:use"],
+  read: ["fleet:read", "registry:read"],
+  write: ["fleet:read", "registry:read", "registry:manage", "machines:manage", "tuning:use"],
 };
 
 export function isTokenScope(value: unknown): value is TokenScope {

@@ -7,6 +7,7 @@ describe("can", () => {
     ["billing:manage", ["owner"]],
     ["members:manage", ["owner", "admin"]],
     ["team:read", ["owner", "admin", "engineer", "viewer"]],
+    ["registry:read", ["owner", "admin", "engineer", "viewer"]],
     ["registry:manage", ["owner", "admin", "engineer"]],
     ["machines:manage", ["owner", "admin", "engineer"]],
     ["tuning:use", ["owner", "admin", "engineer"]],

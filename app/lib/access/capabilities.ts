@@ -16,6 +16,7 @@ export const CAPABILITIES = [
   "billing:manage",
   "members:manage",
   "team:read",
+  "registry:read",
   "registry:manage",
   "machines:manage",
   "tuning:use",
@@ -33,6 +34,7 @@ const ROLE_TABLE: Record<Role, readonly Capability[]> = {
     "billing:manage",
     "members:manage",
     "team:read",
+    "registry:read",
     "registry:manage",
     "machines:manage",
     "tuning:use",
@@ -45,6 +47,7 @@ const ROLE_TABLE: Record<Role, readonly Capability[]> = {
   admin: [
     "members:manage",
     "team:read",
+    "registry:read",
     "registry:manage",
     "machines:manage",
     "tuning:use",
@@ -56,6 +59,7 @@ const ROLE_TABLE: Record<Role, readonly Capability[]> = {
   ],
   engineer: [
     "team:read",
+    "registry:read",
     "registry:manage",
     "machines:manage",
     "tuning:use",
@@ -68,7 +72,9 @@ const ROLE_TABLE: Record<Role, readonly Capability[]> = {
   // Site managers read and triage only within their assigned sites; the server applies the scope.
   site_manager: ["fleet:read", "findings:triage", "retune:request"],
   // Seeing who is in the team is not in DESIGN.md's table; every OEM-side role may.
-  viewer: ["fleet:read", "team:read"],
+  // Models and loop templates (default gains, envelopes, thresholds) are the OEM's own: every
+  // OEM-side role reads them, site managers do not.
+  viewer: ["fleet:read", "registry:read", "team:read"],
 };
 
 export function isRole(value: unknown): value is Role {

@@ -6,6 +6,7 @@
 // counted from the start of each record so a quoted cell with a line break does not shift
 // the rows after it.
 import Papa from "papaparse";
+import { toCsv } from "~/lib/csv";
 import type { z } from "zod";
 
 export const MAX_IMPORT_BYTES = 1024 * 1024;
@@ -226,6 +227,5 @@ export function matchImportRows(rows: ImportRow[], lookups: ImportLookups): { re
 
 /** The serial,enrolmentCode file a person keeps after an import (built in the browser). */
 export function enrolmentCodesCsv(rows: { serial: string; enrolmentCode: string }[]): string {
-  const quote = (v: string) => (/[",\n\r]/.test(v) ? `"${v.replace(/"/g, '""')}"` : v);
-  return ["serial,enrolmentCode", ...rows.map((r) => `${quote(r.serial)},${quote(r.enrolmentCode)}`)].join("\r\n") + "\r\n";
+  return toCsv(["serial", "enrolmentCode"], rows.map((r) => [r.serial, r.enrolmentCode]));
 }

@@ -1,5 +1,6 @@
 import { data, Form, Link, useNavigation } from "react-router";
 import { z } from "zod";
+import { admitEmailRequest, describeWait } from "~/.server/auth/attempt-limits";
 import { getAuth } from "~/.server/auth/auth";
 import { AuthFrame } from "~/components/auth-frame";
 import { Button } from "~/components/ui/button";
@@ -13,6 +14,10 @@ const ForgotSchema = z.object({ email: z.email("Enter an e-mail address.").trim(
 export async function action({ request }: Route.ActionArgs) {
   const parsed = parseForm(ForgotSchema, await request.formData());
   if (!parsed.ok) return data({ errors: parsed.errors, sent: false }, { status: 400 });
+  const wait = await admitEmailRequest(request, parsed.data.email);
+  if (wait) {
+    return data({ errors: { email: [`Too many reset links asked for. Try again in ${describeWait(wait)}.`] }, sent: false }, { status: 429, headers: { "retry-after": String(wait.retryAfterS) } });
+  }
   await getAuth().api.requestPasswordReset({ body: { email: parsed.data.email, redirectTo: "/reset-password" }, headers: request.headers });
   // The same answer whether or not the address has an account.
   return { errors: null, sent: true };

@@ -1,6 +1,7 @@
 import { data, Form, useNavigation } from "react-router";
 import { z } from "zod";
 import { safeNext, sendVerificationLink } from "~/.server/auth/accounts";
+import { admitEmailRequest, describeWait } from "~/.server/auth/attempt-limits";
 import { AuthFrame } from "~/components/auth-frame";
 import { Button } from "~/components/ui/button";
 import { Field } from "~/components/ui/field";
@@ -18,6 +19,10 @@ const ResendSchema = z.object({ email: z.email("Enter an e-mail address.").trim(
 export async function action({ request }: Route.ActionArgs) {
   const parsed = parseForm(ResendSchema, await request.formData());
   if (!parsed.ok) return data({ errors: parsed.errors, sent: false }, { status: 400 });
+  const wait = await admitEmailRequest(request, parsed.data.email);
+  if (wait) {
+    return data({ errors: { form: [`Too many links asked for. Try again in ${describeWait(wait)}.`] }, sent: false }, { status: 429, headers: { "retry-after": String(wait.retryAfterS) } });
+  }
   const delivery = await sendVerificationLink(parsed.data.email, safeNext(parsed.data.next));
   if (!delivery.sent) return data({ errors: { form: [delivery.reason] }, sent: false }, { status: 502 });
   return { errors: null, sent: true };

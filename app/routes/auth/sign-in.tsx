@@ -2,6 +2,7 @@ import { data, Form, Link, redirect, useNavigation } from "react-router";
 import { z } from "zod";
 import { getAuth } from "~/.server/auth/auth";
 import { safeNext } from "~/.server/auth/accounts";
+import { admitSignIn, describeWait, recordSignInSuccess } from "~/.server/auth/attempt-limits";
 import { authErrorCode, readAuthResponse } from "~/.server/auth/call-auth";
 import { getSessionUser } from "~/.server/auth/guards";
 import { AuthFrame } from "~/components/auth-frame";
@@ -27,10 +28,20 @@ export async function action({ request }: Route.ActionArgs) {
   const parsed = parseForm(SignInSchema, await request.formData());
   if (!parsed.ok) return data({ errors: parsed.errors, unverified: null }, { status: 400 });
   const { email, password, next } = parsed.data;
+  const wait = await admitSignIn(request, email);
+  if (wait) {
+    return data(
+      { errors: { form: [`Too many sign-in attempts. Try again in ${describeWait(wait)}.`] }, unverified: null },
+      { status: 429, headers: { "retry-after": String(wait.retryAfterS) } },
+    );
+  }
   const result = await readAuthResponse(
     await getAuth().api.signInEmail({ body: { email, password }, headers: request.headers, asResponse: true }),
   );
-  if (result.ok) throw redirect(safeNext(next), { headers: result.cookies });
+  if (result.ok) {
+    await recordSignInSuccess(request, email);
+    throw redirect(safeNext(next), { headers: result.cookies });
+  }
   if (authErrorCode(result) === "EMAIL_NOT_VERIFIED") {
     return data({ errors: { form: ["Confirm your e-mail address first: open the link we sent you."] }, unverified: email }, { status: 403 });
   }

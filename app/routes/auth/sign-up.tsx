@@ -1,6 +1,7 @@
 import { data, Form, Link, redirect, useNavigation } from "react-router";
 import { getSessionUser } from "~/.server/auth/guards";
 import { safeNext, SignUpSchema, signUpWithPassword } from "~/.server/auth/accounts";
+import { admitEmailRequest, describeWait } from "~/.server/auth/attempt-limits";
 import { AuthFrame } from "~/components/auth-frame";
 import { Button } from "~/components/ui/button";
 import { Field } from "~/components/ui/field";
@@ -17,6 +18,10 @@ export async function loader({ request }: Route.LoaderArgs) {
 export async function action({ request }: Route.ActionArgs) {
   const parsed = parseForm(SignUpSchema, await request.formData());
   if (!parsed.ok) return data({ errors: parsed.errors, created: null }, { status: 400 });
+  const wait = await admitEmailRequest(request, parsed.data.email);
+  if (wait) {
+    return data({ errors: { form: [`Too many sign-ups from here. Try again in ${describeWait(wait)}.`] } as Record<string, string[]>, created: null }, { status: 429, headers: { "retry-after": String(wait.retryAfterS) } });
+  }
   const result = await signUpWithPassword(parsed.data, request.headers);
   if (!result.ok) return data({ errors: result.errors, created: null }, { status: 400 });
   return data(

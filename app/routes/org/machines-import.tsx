@@ -1,3 +1,4 @@
+import { toCsv } from "~/lib/csv";
 import { data, Form, Link, useNavigation } from "react-router";
 import { z } from "zod";
 import { requireCapableMember } from "~/.server/auth/guards";
@@ -56,7 +57,7 @@ export default function ImportMachines({ loaderData, actionData }: Route.Compone
   const navigation = useNavigation();
   const busy = navigation.state === "submitting";
   const sent = actionData?.ok ? actionData.report.mode : undefined;
-  const template = `serial,model,site,firmware\r\nEXAMPLE-0001,${csvCell(models[0] ?? "Model name")},${csvCell(sites[0]?.name ?? "Site name")},1.0.0\r\n`;
+  const template = toCsv(["serial", "model", "site", "firmware"], [["EXAMPLE-0001", models[0] ?? "Model name", sites[0]?.name ?? "Site name", "1.0.0"]]);
   return (
     <>
       <PageHeader
@@ -138,10 +139,6 @@ export default function ImportMachines({ loaderData, actionData }: Route.Compone
       </div>
     </>
   );
-}
-
-function csvCell(value: string) {
-  return /[",\r\n]/.test(value) ? `"${value.replace(/"/g, '""')}"` : value;
 }
 
 export const meta: Route.MetaFunction = () => [{ title: "Import machines · Flyball" }];

@@ -23,6 +23,8 @@ export const apiToken = pgTable(
     createdAt: timestamp("created_at", { withTimezone: true }).notNull().defaultNow(),
     /** Written at most once a minute per token. */
     lastUsedAt: timestamp("last_used_at", { withTimezone: true }),
+    /** Optional: the token stops working at this time. */
+    expiresAt: timestamp("expires_at", { withTimezone: true }),
     revokedAt: timestamp("revoked_at", { withTimezone: true }),
     revokedBy: text("revoked_by"),
   },

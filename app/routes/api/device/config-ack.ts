@@ -2,7 +2,8 @@
 import { acknowledgeConfig, AckRefused } from "~/.server/device-auth/config";
 import { apiError, jsonResponse, readJsonBody, zodIssues } from "~/.server/device-auth/http";
 import { AckRequestSchema } from "~/.server/device-auth/schemas";
-import { authenticateDevice } from "~/.server/device-auth/tokens";
+import { takeDeviceToken } from "~/.server/device-auth/rate-limit";
+import { admitDeviceToken, verifyDeviceToken } from "~/.server/device-auth/tokens";
 import type { Route } from "./+types/config-ack";
 
 export function loader() {
@@ -12,7 +13,10 @@ export function loader() {
 export async function action({ request }: Route.ActionArgs) {
   if (request.method !== "POST") return loader();
   try {
-    const ctx = await authenticateDevice(request);
+    const token = await verifyDeviceToken(request);
+    const wait = takeDeviceToken(token.deviceId);
+    if (wait !== null) return apiError(429, "rate_limited", "Too many requests from this device; retry later.", undefined, { "retry-after": String(wait) });
+    const ctx = await admitDeviceToken(token);
     const body = await readJsonBody(request, 8 * 1024);
     if (!body.ok) return body.response;
     const parsed = AckRequestSchema.safeParse(body.value);

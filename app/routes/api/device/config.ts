@@ -2,12 +2,16 @@
 // application/jose), 304 when unchanged.
 import { getDeviceConfig } from "~/.server/device-auth/config";
 import { apiError, jsonResponse } from "~/.server/device-auth/http";
-import { authenticateDevice } from "~/.server/device-auth/tokens";
+import { takeDeviceToken } from "~/.server/device-auth/rate-limit";
+import { admitDeviceToken, verifyDeviceToken } from "~/.server/device-auth/tokens";
 import type { Route } from "./+types/config";
 
 export async function loader({ request }: Route.LoaderArgs) {
   try {
-    const ctx = await authenticateDevice(request, { withConfigState: true });
+    const token = await verifyDeviceToken(request);
+    const wait = takeDeviceToken(token.deviceId);
+    if (wait !== null) return apiError(429, "rate_limited", "Too many requests from this device; retry later.", undefined, { "retry-after": String(wait) });
+    const ctx = await admitDeviceToken(token, { withConfigState: true });
     const config = await getDeviceConfig(ctx, request.headers.get("if-none-match"));
     const headers = { etag: config.etag, "cache-control": "private, no-cache", vary: "accept" };
     if (config.notModified) return new Response(null, { status: 304, headers });

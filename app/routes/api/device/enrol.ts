@@ -1,4 +1,5 @@
 // POST /api/v1/device/enrol (DESIGN.md section 4).
+import { admitEnrolment } from "~/.server/auth/attempt-limits";
 import { getDb } from "~/.server/db/client";
 import { EnrolmentRefused, enrolDevice } from "~/.server/device-auth/enrol";
 import { apiError, jsonResponse, readJsonBody, zodIssues } from "~/.server/device-auth/http";
@@ -11,6 +12,8 @@ export function loader() {
 
 export async function action({ request }: Route.ActionArgs) {
   if (request.method !== "POST") return loader();
+  const wait = await admitEnrolment(request);
+  if (wait) return apiError(429, "rate_limited", "Too many enrolment attempts from this address; retry later.", undefined, { "retry-after": String(wait.retryAfterS) });
   const body = await readJsonBody(request, 16 * 1024);
   if (!body.ok) return body.response;
   const parsed = EnrolRequestSchema.safeParse(body.value);

@@ -8,7 +8,7 @@ import type { Route } from "./+types/models";
 
 export function loader({ request, params }: Route.LoaderArgs) {
   return handleApi(async () => {
-    const caller = await requireApiCaller(request, params.slug, "fleet:read");
+    const caller = await requireApiCaller(request, params.slug, "registry:read");
     const query = PageQuerySchema.safeParse(searchParams(request));
     if (!query.success) return apiError(400, "invalid_query", "Check the query parameters.", zodIssues(query.error));
     return listModels(getDb(), { organisationId: caller.scope.organisationId, ...query.data });
