@@ -80,6 +80,9 @@ const lean = deviceRoutes();
 
 class BadRequest extends Error {}
 
+/** host[:port] as RFC 9110 allows it (a name, an IPv4 address or a bracketed IPv6 one). */
+const VALID_HOST = /^(?:[A-Za-z0-9](?:[A-Za-z0-9.-]{0,252})|\[[0-9A-Fa-f:.]{2,45}\])(?::\d{1,5})?$/;
+
 /**
  * The request's URL on our own origin. Only origin-form targets ("/path?query") are served;
  * an absolute or malformed target, or one with a NUL, is a bad request.
@@ -324,6 +327,8 @@ function serveStatic(req, res, url) {
 async function serve(req, res) {
   let url;
   try {
+    // The Host header is never used to build anything, but a malformed one is still refused.
+    if (!VALID_HOST.test(req.headers.host ?? "")) throw new BadRequest("bad host");
     url = requestUrl(req.url);
   } catch {
     return sendResponse(req, res, jsonError(400, "bad_request", "The request target is not valid."));

@@ -67,7 +67,7 @@ describe("2. one device cannot fail another tenant's devices", () => {
     const a = await createTeam(db(), ["owner"]);
     const b = await createTeam(db(), ["owner"]);
     const fleetA = await createTestFleet(db(), { organisationId: a.organisation.id, machinesPerSite: 1 });
-    const fleetB = await createTestFleet(db(), { organisationId: b.organisation.id, machinesPerSite: 10 });
+    const fleetB = await createTestFleet(db(), { organisationId: b.organisation.id, machinesPerSite: 5 });
     poisoner = new DeviceClient(APP_URL, await createDeviceIdentity());
     expect((await poisoner.enrol(fleetA.machines[0].enrolmentCode)).status).toBe(201);
     good = [];
@@ -157,6 +157,15 @@ describe("5. site managers read only their own sites' part of the registry", () 
       select count(*)::int as n from site_assignment sa join member m on m.id = sa.member_id join "user" u on u.id = m.user_id
       where u.email = 'manager@halden.example'`);
     expect(customers.items[0].siteCount).toBe(Number(siteCount.rows[0].n));
+    expect(customers.items[0].siteCount).toBeGreaterThan(0);
+    // The engineer sees every site of every customer, and each site's machines.
+    const engineer = await signIn("engineer@corvid.example");
+    const all = await (await get("/api/v1/o/corvid/customers", engineer)).json();
+    expect(all.items.find((c: { name: string }) => c.name === "Halden Plastics").siteCount).toBe(2);
+    const sites = await (await get("/api/v1/o/corvid/sites", engineer)).json();
+    expect(sites.items.every((s: { machineCount: number }) => s.machineCount > 0)).toBe(true);
+    const models = await (await get("/api/v1/o/corvid/models", engineer)).json();
+    expect(models.items[0].machineCount).toBeGreaterThanOrEqual(48);
 
     // A model that no Halden site runs never appears in the manager's filter options.
     const [corvid] = await db().select().from(organisation).where(eq(organisation.slug, "corvid"));

@@ -1,4 +1,8 @@
 // Customers, sites, machine models and loop templates of one organisation.
+//
+// Counts are correlated subqueries with the outer table named in full ("customer"."id"):
+// drizzle renders a column interpolated into a select field without its table, which inside
+// the subquery would resolve to the subquery's own table.
 import { and, asc, count, eq, inArray, sql, type SQL } from "drizzle-orm";
 import { z } from "zod";
 import { recordAudit } from "~/.server/audit/record-audit";
@@ -29,8 +33,8 @@ export async function listCustomers(db: Db, scope: SiteScope, { page, pageSize }
       // A site manager counts only the sites assigned to them.
       siteCount:
         scope.siteIds === null
-          ? sql<number>`(select count(*)::int from ${site} s where s.organisation_id = ${customer.organisationId} and s.customer_id = ${customer.id})`
-          : sql<number>`(select count(*)::int from ${site} s where s.organisation_id = ${customer.organisationId} and s.customer_id = ${customer.id} and s.id in (${sql.join(scope.siteIds.map((id) => sql`${id}::uuid`), sql`, `)}))`,
+          ? sql<number>`(select count(*)::int from ${site} s where s.organisation_id = "customer"."organisation_id" and s.customer_id = "customer"."id")`
+          : sql<number>`(select count(*)::int from ${site} s where s.organisation_id = "customer"."organisation_id" and s.customer_id = "customer"."id" and s.id in (${sql.join(scope.siteIds.map((id) => sql`${id}::uuid`), sql`, `)}))`,
     })
     .from(customer)
     .where(and(...where))
@@ -55,7 +59,7 @@ export async function listSites(db: Db, scope: SiteScope, { page, pageSize, cust
       customerId: site.customerId,
       customerName: customer.name,
       timeZone: site.timeZone,
-      machineCount: sql<number>`(select count(*)::int from ${machine} m where m.organisation_id = ${site.organisationId} and m.site_id = ${site.id})`,
+      machineCount: sql<number>`(select count(*)::int from ${machine} m where m.organisation_id = "site"."organisation_id" and m.site_id = "site"."id")`,
     })
     .from(site)
     .innerJoin(customer, and(eq(customer.organisationId, site.organisationId), eq(customer.id, site.customerId)))
@@ -115,7 +119,7 @@ export async function listModels(db: Db, { organisationId, page, pageSize }: { o
       id: machineModel.id,
       name: machineModel.name,
       description: machineModel.description,
-      machineCount: sql<number>`(select count(*)::int from ${machine} m where m.organisation_id = ${machineModel.organisationId} and m.model_id = ${machineModel.id})`,
+      machineCount: sql<number>`(select count(*)::int from ${machine} m where m.organisation_id = "machine_model"."organisation_id" and m.model_id = "machine_model"."id")`,
     })
     .from(machineModel)
     .where(eq(machineModel.organisationId, organisationId))

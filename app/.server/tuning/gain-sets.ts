@@ -27,7 +27,7 @@ export async function listBenchTemplates(db: Db, { organisationId }: { organisat
       outputMax: loopTemplate.outputMax,
       envelope: loopTemplate.gainEnvelope,
       modelName: machineModel.name,
-      drafts: sql<number>`(select count(*)::int from gain_set g where g.organisation_id = ${loopTemplate.organisationId} and g.loop_template_id = ${loopTemplate.id})`,
+      drafts: sql<number>`(select count(*)::int from gain_set g where g.organisation_id = "loop_template"."organisation_id" and g.loop_template_id = "loop_template"."id")`,
     })
     .from(loopTemplate)
     .innerJoin(machineModel, and(eq(machineModel.organisationId, loopTemplate.organisationId), eq(machineModel.id, loopTemplate.modelId)))
