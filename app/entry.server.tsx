@@ -70,3 +70,6 @@ export default function handleRequest(request: Request, responseStatusCode: numb
     );
   });
 }
+
+// scripts/serve.js reaches the typed lean path through the build (build.entry.module).
+export { createLeanPath } from "~/.server/http/lean-path";

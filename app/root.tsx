@@ -1,4 +1,5 @@
-import { isRouteErrorResponse, Links, Meta, Outlet, Scripts, ScrollRestoration } from "react-router";
+import { Links, Meta, Outlet, Scripts, ScrollRestoration } from "react-router";
+import { describeRouteError } from "~/components/route-error";
 import { useNonce } from "~/lib/web/nonce";
 import type { Route } from "./+types/root";
 import "./app.css";
@@ -29,20 +30,7 @@ export default function App() {
 }
 
 export function ErrorBoundary({ error }: Route.ErrorBoundaryProps) {
-  let title = "Something went wrong";
-  let detail = "The page could not be shown. Try again in a moment.";
-  let stack: string | undefined;
-  if (isRouteErrorResponse(error)) {
-    title = error.status === 404 ? "Not found" : error.status === 403 ? "Not allowed" : `Error ${error.status}`;
-    const message = (error.data as { message?: string } | undefined)?.message;
-    detail =
-      error.status === 404
-        ? "There is nothing here, or you are not a member of this organisation."
-        : (message ?? error.statusText ?? detail);
-  } else if (import.meta.env.DEV && error instanceof Error) {
-    detail = error.message;
-    stack = error.stack;
-  }
+  const { title, detail, stack } = describeRouteError(error);
   return (
     <main className="mx-auto max-w-xl px-6 py-24">
       <h1 className="text-2xl font-semibold">{title}</h1>

@@ -3,10 +3,9 @@
 // Every request is turned into a web Request here, from the configured origin and the request's
 // path only (never from its Host header), with the client's address in one header of ours and a
 // body that cannot grow past a ceiling. Then:
-// - /api/v1/device/* goes straight to its route module's loader or action (the lean path: the
-//   fleet calls it thousands of times a minute, and the document machinery costs more than the
-//   work); its body is read only when the route asks for it, after the token is checked, and
-//   never past the route's own limit (DEVICE_BODY_LIMITS);
+// - /api/v1/device/* goes to the lean path (app/.server/http/lean-path.ts, reached through the
+//   build): straight to the route module, its body read only when the route asks for it and
+//   never past the route's own limit;
 // - files under build/client are served from disk;
 // - everything else goes to React Router's request handler.
 // A bad request line, header or URL gets 400; an error inside one request answers 500 for that
@@ -44,39 +43,13 @@ const TRUSTED_PROXIES = new Set(
 
 // Bodies: the most any route reads (the compute API's 16 MiB JSON plus room for a form's
 // framing); past it the request's stream fails and the connection is closed. The device
-// routes have tighter limits of their own, applied before anything is buffered.
+// routes have tighter limits of their own (app/.server/device-api/limits.ts).
 const BODY_CEILING = 17 * 1024 * 1024;
-/** @type {Record<string, number>} */
-const DEVICE_BODY_LIMITS = {
-  "/api/v1/device/digests": 256 * 1024,
-  "/api/v1/device/config/ack": 8 * 1024,
-  "/api/v1/device/enrol": 16 * 1024,
-  "/api/v1/device/config": 0,
-};
-/** After an oversize device body, this much more is read and dropped so the client hears our 413. */
-const DRAIN_ALLOWANCE = 1024 * 1024;
 
 const build = await import(pathToFileURL(buildPath).href);
 const handleRequest = createRequestHandler(build, process.env.NODE_ENV);
-
-/** Device API paths → their route modules, read from the build's route table. */
-function deviceRoutes() {
-  const byId = build.routes;
-  /** @param {string | undefined} id @returns {string} */
-  const fullPath = (id) => {
-    const route = id ? byId[id] : undefined;
-    if (!route) return "";
-    const parent = fullPath(route.parentId);
-    return route.path ? `${parent}/${route.path}`.replace(/\/+/g, "/") : parent;
-  };
-  const table = new Map();
-  for (const route of Object.values(byId)) {
-    const full = fullPath(route.id);
-    if (full.startsWith("/api/v1/device/") && !full.includes(":") && !full.includes("*")) table.set(full, route.module);
-  }
-  return table;
-}
-const lean = deviceRoutes();
+/** @type {import("../app/.server/http/lean-path").LeanPath} */
+const lean = build.entry.module.createLeanPath(build.routes);
 
 class BadRequest extends Error {}
 
@@ -132,38 +105,6 @@ function requestHeaders(req) {
 }
 
 /**
- * Read up to `limit` bytes of the body into memory; null when it is larger (the rest, up to
- * DRAIN_ALLOWANCE, is read and dropped, then the connection is cut).
- * @param {import("node:http").IncomingMessage} req @param {number} limit @returns {Promise<Buffer | null>}
- */
-function readBody(req, limit) {
-  return new Promise((resolve, reject) => {
-    const declared = Number(req.headers["content-length"]);
-    if (declared > limit + DRAIN_ALLOWANCE) {
-      req.socket.destroySoon?.();
-      resolve(null);
-      return;
-    }
-    /** @type {Buffer[]} */
-    const chunks = [];
-    let size = 0;
-    req.on("data", (chunk) => {
-      size += chunk.length;
-      if (size <= limit) chunks.push(chunk);
-      else if (size > limit + DRAIN_ALLOWANCE) {
-        req.pause();
-        resolve(null);
-      }
-    });
-    req.on("end", () => resolve(size > limit ? null : Buffer.concat(chunks, size)));
-    req.on("error", reject);
-    req.on("close", () => {
-      if (!req.complete) resolve(null);
-    });
-  });
-}
-
-/**
  * The body as a web stream that follows the reader's pace and fails past BODY_CEILING.
  * @param {import("node:http").IncomingMessage} req
  */
@@ -193,26 +134,9 @@ function bodyStream(req) {
   }, { highWaterMark: 4 });
 }
 
-// On the lean path the body reaches the route through this symbol instead of the Request's
-// stream: a function that reads it into memory up to the route's limit, called only when the
-// route reads its body (readLimitedBytes in app/.server/http/body.ts). Responses made with
-// jsonResponse carry their text under the same symbol, written here without a stream.
+// Responses made with jsonResponse (app/.server/http/json.ts) carry their text under this
+// symbol; it is written here without going through the Response's stream.
 const RAW_BODY = Symbol.for("flyball.rawBody");
-
-/** @param {import("node:http").IncomingMessage} req @param {URL} url @param {AbortSignal} signal @param {number | null} leanLimit */
-function toRequest(req, url, signal, leanLimit) {
-  const method = req.method ?? "GET";
-  const headers = requestHeaders(req);
-  const hasBody = method !== "GET" && method !== "HEAD";
-  if (leanLimit !== null) {
-    const request = new Request(url, { method, headers, signal });
-    /** @type {Promise<Buffer | null> | undefined} */
-    let pending;
-    if (hasBody) Object.defineProperty(request, RAW_BODY, { value: () => (pending ??= readBody(req, leanLimit)) });
-    return request;
-  }
-  return new Request(url, { method, headers, signal, ...(hasBody ? { body: bodyStream(req), duplex: "half" } : {}) });
-}
 
 const SECURITY_HEADERS = {
   "x-content-type-options": "nosniff",
@@ -257,18 +181,6 @@ async function sendResponse(req, res, response) {
   } finally {
     reader.cancel().catch(() => {});
     res.end();
-  }
-}
-
-/** @param {any} module @param {Request} request */
-async function runLean(module, request) {
-  const handler = request.method === "GET" || request.method === "HEAD" ? module.loader : module.action;
-  if (!handler) return Response.json({ error: { code: "method_not_allowed", message: "Method not allowed." } }, { status: 405 });
-  try {
-    return await handler({ request, params: {}, context: {} });
-  } catch (thrown) {
-    if (thrown instanceof Response) return thrown;
-    throw thrown;
   }
 }
 
@@ -333,20 +245,21 @@ async function serve(req, res) {
   } catch {
     return sendResponse(req, res, jsonError(400, "bad_request", "The request target is not valid."));
   }
-  const module = lean.get(url.pathname);
-  if (!module && serveStatic(req, res, url)) return;
+  if (!lean.paths.includes(url.pathname) && serveStatic(req, res, url)) return;
   const controller = new AbortController();
   res.on("close", () => controller.abort());
-  let request;
+  let headers;
   try {
-    request = toRequest(req, url, controller.signal, module ? (DEVICE_BODY_LIMITS[url.pathname] ?? 0) : null);
+    headers = requestHeaders(req);
   } catch (error) {
     if (!(error instanceof BadRequest)) throw error;
     return sendResponse(req, res, jsonError(400, "bad_request", "A request header is not valid."));
   }
-  const response = module ? await runLean(module, request) : await handleRequest(request);
-  if (!(response instanceof Response)) throw new Error("the route did not answer with a Response");
-  await sendResponse(req, res, response);
+  const hasBody = req.method !== "GET" && req.method !== "HEAD";
+  const response =
+    lean.serve(req, url, headers, controller.signal) ??
+    handleRequest(new Request(url, { method: req.method, headers, signal: controller.signal, ...(hasBody ? { body: bodyStream(req), duplex: "half" } : {}) }));
+  await sendResponse(req, res, await response);
 }
 
 const server = http.createServer(
@@ -366,7 +279,7 @@ server.on("clientError", (error, socket) => {
     socket.end("HTTP/1.1 400 Bad Request\r\nconnection: close\r\ncontent-length: 0\r\n\r\n");
   } else socket.destroy();
 });
-server.listen(port, host, () => console.log(`Flyball app at http://${host}:${port}/ (device API on the lean path: ${[...lean.keys()].join(", ")})`));
+server.listen(port, host, () => console.log(`Flyball app at http://${host}:${port}/ (device API on the lean path: ${lean.paths.join(", ")})`));
 
 // A failure that escapes a request (a stream error after the answer began, say) is logged; it
 // must not take the other requests down with it.

@@ -1,6 +1,7 @@
 // Organisation API tokens (DESIGN.md section 5): issue, list, revoke, and find by secret.
 // A token is `fbk_` + 32 random bytes in base64url. Only its SHA-256 is stored, with a short
 // prefix for display; the secret is returned once, by `createApiToken`, and never again.
+import { DomainError } from "~/lib/errors";
 import { createHash, randomBytes } from "node:crypto";
 import { and, desc, eq, isNull, lt, or, sql } from "drizzle-orm";
 import { z } from "zod";
@@ -25,12 +26,6 @@ export const CreateApiTokenSchema = z.object({
     z.coerce.number("Enter a number of days.").int("Enter whole days.").min(1, "At least 1 day.").max(730, "At most 730 days.").optional(),
   ),
 });
-
-export class ApiTokenRuleError extends Error {
-  constructor(message: string, readonly status: 400 | 404 = 400) {
-    super(message);
-  }
-}
 
 export function hashApiToken(secret: string): string {
   return createHash("sha256").update(secret).digest("hex");
@@ -78,7 +73,7 @@ export async function revokeApiToken(db: Db, actor: Membership, tokenId: string)
     .set({ revokedAt: new Date(), revokedBy: actor.user.id })
     .where(and(eq(apiToken.organisationId, actor.organisation.id), eq(apiToken.id, tokenId), isNull(apiToken.revokedAt)))
     .returning({ id: apiToken.id, name: apiToken.name, prefix: apiToken.prefix });
-  if (!row) throw new ApiTokenRuleError("That token does not exist or is already revoked.", 404);
+  if (!row) throw new DomainError("not_found", "That token does not exist or is already revoked.", { status: 404 });
   await recordAudit(db, { organisationId: actor.organisation.id, actor: actor.user.id, action: "api_token.revoked", targetType: "api_token", targetId: row.id, detail: { name: row.name, prefix: row.prefix } });
 }
 

@@ -3,8 +3,9 @@ import type { z } from "zod";
 import { bearerSecret, findApiToken } from "~/.server/auth/api-tokens";
 import { getSessionUser } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
-import { apiError, invalidRequest, readJson } from "~/.server/http/api";
-import { ControlInputError } from "~/lib/control";
+import { apiError, invalidBody, methodNotAllowed, readJsonBody } from "~/.server/http/json";
+import { errorResponse } from "~/.server/http/errors";
+import { DomainError } from "~/lib/errors";
 
 export const COMPUTE_JSON_LIMIT = 16 * 1024 * 1024;
 
@@ -24,16 +25,15 @@ export async function requireComputeCaller(request: Request): Promise<Response |
 }
 
 export function computeFailure(error: unknown): Response {
-  if (error instanceof ControlInputError) {
-    return apiError(400, "invalid_input", `${error.field}: ${error.message.replace(/^[^:]*:\s*/, "")}`, [{ path: error.field.split("."), message: error.message }]);
-  }
+  // Bad input (ControlInputError is a DomainError) is the caller's; anything else the engine could not do.
+  if (error instanceof DomainError) return errorResponse(error);
   const message = error instanceof Error ? error.message : String(error);
   return apiError(422, "computation_failed", `The computation could not be completed: ${message}`);
 }
 
 export function answerWith<S extends z.ZodType>(schema: S, value: unknown, answer: (request: z.infer<S>) => unknown): Response {
   const parsed = schema.safeParse(value);
-  if (!parsed.success) return invalidRequest(parsed.error);
+  if (!parsed.success) return invalidBody(parsed.error);
   try {
     return Response.json(answer(parsed.data));
   } catch (error) {
@@ -42,14 +42,10 @@ export function answerWith<S extends z.ZodType>(schema: S, value: unknown, answe
 }
 
 export async function handleCompute<S extends z.ZodType>(request: Request, schema: S, answer: (request: z.infer<S>) => unknown): Promise<Response> {
-  if (request.method !== "POST") return apiError(405, "method_not_allowed", "Use POST.", undefined, { allow: "POST" });
+  if (request.method !== "POST") return methodNotAllowed("POST");
   const refused = await requireComputeCaller(request);
   if (refused) return refused;
-  const body = await readJson(request, COMPUTE_JSON_LIMIT);
+  const body = await readJsonBody(request, { limit: COMPUTE_JSON_LIMIT, requireJsonType: false });
   if (!body.ok) return body.response;
   return answerWith(schema, body.value, answer);
-}
-
-export function methodNotAllowed(): Response {
-  return apiError(405, "method_not_allowed", "Use POST.", undefined, { allow: "POST" });
 }

@@ -21,7 +21,7 @@ export function getPool(): pg.Pool {
 let ingestPool: pg.Pool | undefined;
 
 /**
- * A few connections for the digest ingest statement alone (device-auth/ingest.ts), with nested
+ * A few connections for the digest ingest statement alone (device-api/ingest.ts), with nested
  * loops turned off. Its rows come from unnest() of array parameters and from RETURNING of the
  * statement's own inserts, which the planner cannot count: it guesses one row and joins them
  * with nested loops, quadratic in the batch (a 1 600-digest batch took seconds). Hash joins

@@ -1,4 +1,5 @@
 // POST /api/v1/device/enrol: trade a one-time enrolment code for a registered device key.
+import { DomainError } from "~/lib/errors";
 import { and, asc, eq, gt, isNull } from "drizzle-orm";
 import { calculateJwkThumbprint, importJWK } from "jose";
 import type { z } from "zod";
@@ -6,13 +7,7 @@ import { recordAudit } from "~/.server/audit/record-audit";
 import type { Db } from "~/.server/db/client";
 import { device, enrolmentCode, loop, machine, organisation } from "~/.server/db/schema";
 import { hashEnrolmentCode } from "~/.server/fleet/enrolment-codes";
-import type { EnrolRequestSchema } from "./schemas";
-
-export class EnrolmentRefused extends Error {
-  constructor(readonly code: string, message: string, readonly status = 400) {
-    super(message);
-  }
-}
+import type { EnrolRequestSchema } from "~/.server/device-api/schemas";
 
 export async function enrolDevice(db: Db, input: z.infer<typeof EnrolRequestSchema>) {
   const alg = input.publicKey.kty === "OKP" ? "EdDSA" : "ES256";
@@ -22,7 +17,7 @@ export async function enrolDevice(db: Db, input: z.infer<typeof EnrolRequestSche
     // Refuses points that are not on the curve.
     await importJWK({ ...jwk, alg }, alg);
   } catch {
-    throw new EnrolmentRefused("invalid_public_key", "The public key is not a valid Ed25519 or P-256 key.");
+    throw new DomainError("invalid_public_key", "The public key is not a valid Ed25519 or P-256 key.");
   }
   const thumbprint = await calculateJwkThumbprint(jwk as Parameters<typeof calculateJwkThumbprint>[0]);
   const now = new Date();
@@ -34,7 +29,7 @@ export async function enrolDevice(db: Db, input: z.infer<typeof EnrolRequestSche
       .where(and(eq(enrolmentCode.codeHash, hashEnrolmentCode(input.enrolmentCode)), isNull(enrolmentCode.usedAt), isNull(enrolmentCode.supersededAt), gt(enrolmentCode.expiresAt, now)))
       .returning({ organisationId: enrolmentCode.organisationId, machineId: enrolmentCode.machineId });
     // Every kind of bad code gets the same answer, so codes cannot be probed.
-    if (!claimed) throw new EnrolmentRefused("invalid_enrolment_code", "The enrolment code is not valid. Ask for a new one.", 401);
+    if (!claimed) throw new DomainError("invalid_enrolment_code", "The enrolment code is not valid. Ask for a new one.", { status: 401 });
     const { organisationId, machineId } = claimed;
     const [target] = await tx
       .select({ id: machine.id, status: machine.status, serial: machine.serial, slug: organisation.slug })
@@ -42,7 +37,7 @@ export async function enrolDevice(db: Db, input: z.infer<typeof EnrolRequestSche
       .innerJoin(organisation, eq(organisation.id, machine.organisationId))
       .where(and(eq(machine.organisationId, organisationId), eq(machine.id, machineId)))
       .for("update", { of: machine });
-    if (!target || target.status !== "active") throw new EnrolmentRefused("invalid_enrolment_code", "The enrolment code is not valid. Ask for a new one.", 401);
+    if (!target || target.status !== "active") throw new DomainError("invalid_enrolment_code", "The enrolment code is not valid. Ask for a new one.", { status: 401 });
     // A machine has one live device key: enrolling again replaces the previous one.
     const replaced = await tx
       .update(device)

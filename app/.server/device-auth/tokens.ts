@@ -11,7 +11,7 @@
 import { decodeProtectedHeader, importJWK, jwtVerify, errors as joseErrors, type CryptoKey } from "jose";
 import { createBatcher } from "~/.server/db/batch";
 import { getPool } from "~/.server/db/client";
-import { apiError } from "./http";
+import { apiError } from "~/.server/http/json";
 
 export const DEVICE_AUDIENCE = "flyball-device";
 export const ALLOWED_ALGS = ["EdDSA", "ES256"] as const;

@@ -8,11 +8,11 @@ import { bearerSecret, findApiToken } from "~/.server/auth/api-tokens";
 import { getMembership, getSessionUser, type Membership } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
 import { organisation } from "~/.server/db/schema";
-import { apiError, jsonResponse } from "~/.server/device-auth/http";
+import { apiError } from "~/.server/http/json";
 import { env } from "~/.server/env";
 import { tokenCan } from "~/lib/access/api-token-scope";
 import { can, type Capability } from "~/lib/access/capabilities";
-import { FleetRuleError } from "./errors";
+
 import { getSiteScope, type SiteScope } from "./scope";
 
 export type ApiCaller = {
@@ -65,21 +65,4 @@ export async function requireApiCaller(request: Request, slug: string | undefine
   if (!can(membership.role, capability)) throw apiError(403, "forbidden", "Your role does not allow this.");
   const scope = await getSiteScope(getDb(), membership);
   return { organisation: membership.organisation, membership, scope, actor: membership.user.id };
-}
-
-/** Run a management API handler: domain errors become JSON answers, surprises a JSON 500. */
-export async function handleApi(run: () => Promise<Response | unknown>): Promise<Response> {
-  try {
-    const result = await run();
-    return result instanceof Response ? result : jsonResponse(result);
-  } catch (error) {
-    if (error instanceof Response) return error;
-    if (error instanceof FleetRuleError) return apiError(error.status, error.code, error.message, error.issues as never);
-    console.error(error);
-    return apiError(500, "internal_error", "Something went wrong on our side.");
-  }
-}
-
-export function methodNotAllowed(allow: string): Response {
-  return apiError(405, "method_not_allowed", `Use ${allow}.`, undefined, { allow });
 }

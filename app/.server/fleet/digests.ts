@@ -1,10 +1,11 @@
 // Reading a loop's digests for trends: raw windows, or time buckets for long ranges.
+import { DomainError } from "~/lib/errors";
 import { and, eq } from "drizzle-orm";
 import { sql } from "drizzle-orm";
 import { z } from "zod";
 import type { Db } from "~/.server/db/client";
 import { loop, machine } from "~/.server/db/schema";
-import { FleetRuleError } from "./errors";
+
 import { inScope, type SiteScope } from "./scope";
 
 export const DigestRangeQuerySchema = z
@@ -43,13 +44,13 @@ function mapRow(row: DigestRow) {
 }
 
 export async function listLoopDigests(db: Db, scope: SiteScope, { loopId, query }: { loopId: string; query: DigestRangeQuery }) {
-  if (!z.uuid().safeParse(loopId).success) throw new FleetRuleError("not_found", "No such loop.", 404);
+  if (!z.uuid().safeParse(loopId).success) throw new DomainError("not_found", "No such loop.", { status: 404 });
   const [target] = await db
     .select({ id: loop.id, key: loop.key, machineId: loop.machineId, siteId: machine.siteId })
     .from(loop)
     .innerJoin(machine, and(eq(machine.organisationId, loop.organisationId), eq(machine.id, loop.machineId)))
     .where(and(eq(loop.organisationId, scope.organisationId), eq(loop.id, loopId)));
-  if (!target || !inScope(scope, target.siteId)) throw new FleetRuleError("not_found", "No such loop.", 404);
+  if (!target || !inScope(scope, target.siteId)) throw new DomainError("not_found", "No such loop.", { status: 404 });
   const range = sql`d.organisation_id = ${scope.organisationId} and d.loop_id = ${loopId}::uuid
     and d.window_start >= ${query.from.toISOString()}::timestamptz and d.window_start < ${query.to.toISOString()}::timestamptz`;
   const offset = (query.page - 1) * query.pageSize;

@@ -1,20 +1,14 @@
 // Bulk registration from CSV, the database side: load what the rows are matched against
 // (this organisation only), then register every accepted row in ONE transaction, so a
 // failure half-way leaves nothing behind. Parsing and matching live in ~/lib/fleet/machine-import.
+import { DomainError } from "~/lib/errors";
 import { and, eq, inArray } from "drizzle-orm";
 import { recordAudit } from "~/.server/audit/record-audit";
 import type { Db } from "~/.server/db/client";
 import { readLimitedBytes } from "~/.server/http/body";
 import { machine } from "~/.server/db/schema";
-import {
-  MAX_IMPORT_BYTES,
-  matchImportRows,
-  parseMachineImport,
-  type ImportMode,
-  type ReadyRow,
-  type RejectedRow,
-} from "~/lib/fleet/machine-import";
-import { FleetRuleError } from "./errors";
+import { MAX_IMPORT_BYTES, matchImportRows, parseMachineImport, type ImportMode, type ReadyRow, type RejectedRow } from "~/lib/fleet/machine-import";
+
 import { FirmwareSchema, registerMachine, SerialSchema } from "./machines";
 import { listRegistryOptions } from "./registry";
 import type { SiteScope } from "./scope";
@@ -47,7 +41,7 @@ async function findTakenSerials(db: Db, organisationId: string, serials: string[
 export async function importMachinesFromCsv(db: Db, { scope, actor, text, mode }: { scope: SiteScope; actor: string; text: string; mode: ImportMode }): Promise<MachineImportReport> {
   const organisationId = scope.organisationId;
   const parsed = parseMachineImport(text, { serial: SerialSchema, firmware: FirmwareSchema });
-  if (!parsed.ok) throw new FleetRuleError(parsed.code, parsed.message, 400);
+  if (!parsed.ok) throw new DomainError(parsed.code, parsed.message, { status: 400 });
 
   const options = await listRegistryOptions(db, scope);
   const takenSerials = await findTakenSerials(db, organisationId, parsed.rows.map((r) => r.serial));
@@ -74,8 +68,8 @@ async function registerReadyRows(tx: Db, { organisationId, actor, rows, mode, sk
     } catch (error) {
       // Someone registered the serial (or removed the site) since the check: throwing rolls
       // the whole transaction back, so the file can simply be sent again.
-      if (error instanceof FleetRuleError) {
-        throw new FleetRuleError(error.code, `Row ${row.row}: ${error.message} It changed while the file was being imported; nothing was imported. Send the file again.`, 409);
+      if (error instanceof DomainError) {
+        throw new DomainError(error.code, `Row ${row.row}: ${error.message} It changed while the file was being imported; nothing was imported. Send the file again.`, { status: 409 });
       }
       throw error;
     }
@@ -94,7 +88,6 @@ export type ImportUpload =
   | { ok: false; status: 400 | 413 | 415; code: string; message: string };
 
 const tooLarge = { ok: false, status: 413, code: "payload_too_large", message: `The file is larger than ${MAX_IMPORT_BYTES / 1024 / 1024} MB; split it into smaller files.` } as const;
-
 
 /**
  * The CSV of an upload: multipart with a `file` (and `mode`) field, or a text/csv body whose

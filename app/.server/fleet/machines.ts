@@ -1,6 +1,7 @@
 // Machines and their loops: registration (loops from the model's templates), listing with
 // server-side filters, sorting and pagination, the detail view, decommissioning, and the
 // device side of enrolment (codes, revocation).
+import { DomainError } from "~/lib/errors";
 import { and, asc, desc, eq, isNull, sql, type SQL } from "drizzle-orm";
 import { z } from "zod";
 import { recordAudit } from "~/.server/audit/record-audit";
@@ -8,7 +9,7 @@ import type { Db } from "~/.server/db/client";
 import { customer, device, enrolmentCode, loop, loopTemplate, machine, machineModel, site } from "~/.server/db/schema";
 import { HEALTH_BANDS, type HealthBand } from "~/lib/health";
 import { issueEnrolmentCode } from "./enrolment-codes";
-import { FleetRuleError } from "./errors";
+
 import { inScope, type SiteScope } from "./scope";
 
 export const MACHINE_STATUSES = ["active", "decommissioned"] as const;
@@ -236,15 +237,15 @@ export type MachineDetail = NonNullable<Awaited<ReturnType<typeof getMachine>>>;
 /** Register a machine, create its loops from the model's templates and issue an enrolment code. */
 export async function registerMachine(db: Db, { organisationId, actor, input }: { organisationId: string; actor: string; input: RegisterMachineInput }) {
   const [model] = await db.select({ id: machineModel.id }).from(machineModel).where(and(eq(machineModel.organisationId, organisationId), eq(machineModel.id, input.modelId)));
-  if (!model) throw new FleetRuleError("unknown_model", "No such machine model.", 400, [{ path: ["modelId"], message: "No such machine model." }]);
+  if (!model) throw new DomainError("unknown_model", "No such machine model.", { status: 400, issues: [{ path: ["modelId"], message: "No such machine model." }] });
   const [target] = await db.select({ id: site.id }).from(site).where(and(eq(site.organisationId, organisationId), eq(site.id, input.siteId)));
-  if (!target) throw new FleetRuleError("unknown_site", "No such site.", 400, [{ path: ["siteId"], message: "No such site." }]);
+  if (!target) throw new DomainError("unknown_site", "No such site.", { status: 400, issues: [{ path: ["siteId"], message: "No such site." }] });
   const [created] = await db
     .insert(machine)
     .values({ organisationId, serial: input.serial, modelId: input.modelId, siteId: input.siteId, firmware: input.firmware ?? null })
     .onConflictDoNothing()
     .returning();
-  if (!created) throw new FleetRuleError("serial_taken", `A machine with serial ${input.serial} is already registered.`, 409, [{ path: ["serial"], message: "This serial is already registered." }]);
+  if (!created) throw new DomainError("serial_taken", `A machine with serial ${input.serial} is already registered.`, { status: 409, issues: [{ path: ["serial"], message: "This serial is already registered." }] });
   const templates = await db
     .select({ id: loopTemplate.id, key: loopTemplate.key, defaultGains: loopTemplate.defaultGains })
     .from(loopTemplate)
@@ -258,18 +259,18 @@ export async function registerMachine(db: Db, { organisationId, actor, input }: 
 }
 
 async function requireMachineInScope(db: Db, scope: SiteScope, machineId: string) {
-  if (!z.uuid().safeParse(machineId).success) throw new FleetRuleError("not_found", "No such machine.", 404);
+  if (!z.uuid().safeParse(machineId).success) throw new DomainError("not_found", "No such machine.", { status: 404 });
   const [row] = await db
     .select({ id: machine.id, siteId: machine.siteId, status: machine.status, serial: machine.serial })
     .from(machine)
     .where(and(eq(machine.organisationId, scope.organisationId), eq(machine.id, machineId)));
-  if (!row || !inScope(scope, row.siteId)) throw new FleetRuleError("not_found", "No such machine.", 404);
+  if (!row || !inScope(scope, row.siteId)) throw new DomainError("not_found", "No such machine.", { status: 404 });
   return row;
 }
 
 export async function regenerateEnrolmentCode(db: Db, scope: SiteScope, { machineId, actor }: { machineId: string; actor: string }) {
   const target = await requireMachineInScope(db, scope, machineId);
-  if (target.status !== "active") throw new FleetRuleError("decommissioned", "This machine is decommissioned.", 409);
+  if (target.status !== "active") throw new DomainError("decommissioned", "This machine is decommissioned.", { status: 409 });
   const code = await issueEnrolmentCode(db, { organisationId: scope.organisationId, machineId, actor });
   await recordAudit(db, { organisationId: scope.organisationId, actor, action: "machine.enrolment_code_issued", targetType: "machine", targetId: machineId, detail: { serial: target.serial, expiresAt: code.expiresAt.toISOString() } });
   return code;

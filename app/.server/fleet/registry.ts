@@ -3,12 +3,13 @@
 // Counts are correlated subqueries with the outer table named in full ("customer"."id"):
 // drizzle renders a column interpolated into a select field without its table, which inside
 // the subquery would resolve to the subquery's own table.
+import { DomainError } from "~/lib/errors";
 import { and, asc, count, eq, inArray, sql, type SQL } from "drizzle-orm";
 import { z } from "zod";
 import { recordAudit } from "~/.server/audit/record-audit";
 import type { Db } from "~/.server/db/client";
 import { customer, loopTemplate, machine, machineModel, site } from "~/.server/db/schema";
-import { FleetRuleError } from "./errors";
+
 import type { SiteScope } from "./scope";
 
 export type Page = { page: number; pageSize: number };
@@ -81,16 +82,16 @@ export const SiteInputSchema = z.object({
 
 export async function addCustomer(db: Db, { organisationId, actor, input }: { organisationId: string; actor: string; input: z.infer<typeof CustomerInputSchema> }) {
   const [row] = await db.insert(customer).values({ organisationId, name: input.name }).onConflictDoNothing().returning();
-  if (!row) throw new FleetRuleError("customer_exists", "A customer of this name already exists.", 409);
+  if (!row) throw new DomainError("customer_exists", "A customer of this name already exists.", { status: 409 });
   await recordAudit(db, { organisationId, actor, action: "customer.created", targetType: "customer", targetId: row.id, detail: { name: row.name } });
   return row;
 }
 
 export async function addSite(db: Db, { organisationId, actor, input }: { organisationId: string; actor: string; input: z.infer<typeof SiteInputSchema> }) {
   const [owner] = await db.select({ id: customer.id }).from(customer).where(and(eq(customer.organisationId, organisationId), eq(customer.id, input.customerId)));
-  if (!owner) throw new FleetRuleError("unknown_customer", "No such customer.", 400);
+  if (!owner) throw new DomainError("unknown_customer", "No such customer.", { status: 400 });
   const [row] = await db.insert(site).values({ organisationId, ...input }).onConflictDoNothing().returning();
-  if (!row) throw new FleetRuleError("site_exists", "This customer already has a site of this name.", 409);
+  if (!row) throw new DomainError("site_exists", "This customer already has a site of this name.", { status: 409 });
   await recordAudit(db, { organisationId, actor, action: "site.created", targetType: "site", targetId: row.id, detail: { name: row.name, timeZone: row.timeZone } });
   return row;
 }

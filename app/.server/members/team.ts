@@ -1,4 +1,5 @@
 // The team page's domain: members, roles and invitations of one organisation.
+import { DomainError } from "~/lib/errors";
 import { and, asc, eq, sql } from "drizzle-orm";
 import { z } from "zod";
 import { getAuth } from "~/.server/auth/auth";
@@ -11,12 +12,6 @@ import { EmailDeliveryError, sendEmail } from "~/.server/email/send-email";
 import { invitationEmail } from "~/.server/email/templates";
 import { env } from "~/.server/env";
 import { canAssignRole, canRemoveMember, isRole, ROLE_LABELS, ROLES } from "~/lib/access/capabilities";
-
-export class TeamRuleError extends Error {
-  constructor(message: string, readonly status: 400 | 403 | 404 | 409 = 400) {
-    super(message);
-  }
-}
 
 export async function listTeam(db: Db, { organisationId }: { organisationId: string }) {
   const members = await db
@@ -51,14 +46,14 @@ async function deliverInvitation(db: Db, actor: Membership, invitationId: string
 
 /** Invite someone by e-mail. The invitation is kept even when the e-mail fails; the caller is told. */
 export async function inviteMember(db: Db, actor: Membership, input: z.infer<typeof InviteSchema>, headers: Headers) {
-  if (!canAssignRole(actor.role, "viewer", input.role)) throw new TeamRuleError("Your role cannot invite with this role.", 403);
+  if (!canAssignRole(actor.role, "viewer", input.role)) throw new DomainError("forbidden", "Your role cannot invite with this role.", { status: 403 });
   const [existing] = await db
     .select({ id: member.id })
     .from(member)
     .innerJoin(user, eq(user.id, member.userId))
     .where(and(eq(member.organizationId, actor.organisation.id), eq(user.email, input.email)))
     .limit(1);
-  if (existing) throw new TeamRuleError("This person is already a member.", 409);
+  if (existing) throw new DomainError("conflict", "This person is already a member.", { status: 409 });
   const result = await readAuthResponse(
     await getAuth().api.createInvitation({
       body: { email: input.email, role: input.role, organizationId: actor.organisation.id },
@@ -66,7 +61,7 @@ export async function inviteMember(db: Db, actor: Membership, input: z.infer<typ
       asResponse: true,
     }),
   );
-  if (!result.ok) throw new TeamRuleError(String(result.body.message ?? "The invitation could not be created."));
+  if (!result.ok) throw new DomainError("refused", String(result.body.message ?? "The invitation could not be created."));
   const invitationId = String(result.body.id);
   await recordAudit(db, { organisationId: actor.organisation.id, actor: actor.user.id, action: "invitation.created", targetType: "invitation", targetId: invitationId, detail: { email: input.email, role: input.role } });
   return { invitationId, delivery: await deliverInvitation(db, actor, invitationId, input.email, input.role) };
@@ -78,7 +73,7 @@ async function requirePendingInvitation(db: Db, organisationId: string, invitati
     .from(invitation)
     .where(and(eq(invitation.organizationId, organisationId), eq(invitation.id, invitationId), eq(invitation.status, "pending")))
     .limit(1);
-  if (!row) throw new TeamRuleError("No pending invitation with this id.", 404);
+  if (!row) throw new DomainError("not_found", "No pending invitation with this id.", { status: 404 });
   return row;
 }
 
@@ -103,7 +98,7 @@ async function requireMember(db: Db, organisationId: string, memberId: string) {
     .where(and(eq(member.organizationId, organisationId), eq(member.id, memberId)))
     .for("update")
     .limit(1);
-  if (!row) throw new TeamRuleError("No such member in this organisation.", 404);
+  if (!row) throw new DomainError("not_found", "No such member in this organisation.", { status: 404 });
   return row;
 }
 
@@ -120,9 +115,9 @@ export const ChangeRoleSchema = z.object({ memberId: z.string().min(1), role: z.
 export async function changeMemberRole(db: Db, actor: Membership, input: z.infer<typeof ChangeRoleSchema>) {
   await db.transaction(async (tx) => {
     const target = await requireMember(tx, actor.organisation.id, input.memberId);
-    if (!canAssignRole(actor.role, target.role, input.role)) throw new TeamRuleError("Your role cannot make this change.", 403);
+    if (!canAssignRole(actor.role, target.role, input.role)) throw new DomainError("forbidden", "Your role cannot make this change.", { status: 403 });
     if (target.role === "owner" && input.role !== "owner" && (await countOwners(tx, actor.organisation.id)) <= 1) {
-      throw new TeamRuleError("The organisation needs at least one owner. Make someone else owner first.", 409);
+      throw new DomainError("conflict", "The organisation needs at least one owner. Make someone else owner first.", { status: 409 });
     }
     await tx.update(member).set({ role: input.role }).where(and(eq(member.organizationId, actor.organisation.id), eq(member.id, target.id)));
     await recordAudit(tx, { organisationId: actor.organisation.id, actor: actor.user.id, action: "member.role_changed", targetType: "member", targetId: target.id, detail: { from: target.role, to: input.role } });
@@ -133,9 +128,9 @@ export async function removeMember(db: Db, actor: Membership, memberId: string) 
   await db.transaction(async (tx) => {
     const target = await requireMember(tx, actor.organisation.id, memberId);
     const leaving = target.userId === actor.user.id;
-    if (!leaving && !canRemoveMember(actor.role, target.role)) throw new TeamRuleError("Your role cannot remove this member.", 403);
+    if (!leaving && !canRemoveMember(actor.role, target.role)) throw new DomainError("forbidden", "Your role cannot remove this member.", { status: 403 });
     if (target.role === "owner" && (await countOwners(tx, actor.organisation.id)) <= 1) {
-      throw new TeamRuleError("The last owner cannot leave. Make someone else owner first.", 409);
+      throw new DomainError("conflict", "The last owner cannot leave. Make someone else owner first.", { status: 409 });
     }
     await tx.delete(member).where(and(eq(member.organizationId, actor.organisation.id), eq(member.id, target.id)));
     await recordAudit(tx, { organisationId: actor.organisation.id, actor: actor.user.id, action: leaving ? "member.left" : "member.removed", targetType: "member", targetId: target.id, detail: { role: target.role } });
@@ -155,7 +150,7 @@ export async function getInvitationPreview(db: Db, invitationId: string) {
 
 export async function acceptInvitation(invitationId: string, headers: Headers) {
   const result = await readAuthResponse(await getAuth().api.acceptInvitation({ body: { invitationId }, headers, asResponse: true }));
-  if (!result.ok) throw new TeamRuleError(String(result.body.message ?? "The invitation could not be accepted."));
+  if (!result.ok) throw new DomainError("refused", String(result.body.message ?? "The invitation could not be accepted."));
   const accepted = result.body as { member?: { id: string; organizationId: string; userId: string } };
   if (accepted.member) {
     await recordAudit(getDb(), { organisationId: accepted.member.organizationId, actor: accepted.member.userId, action: "invitation.accepted", targetType: "member", targetId: accepted.member.id });

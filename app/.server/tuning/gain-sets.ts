@@ -1,17 +1,12 @@
 // Gain sets saved from the tuning bench. A draft must fit its loop template's safety
 // envelope: gains outside it are refused here, before anyone can propose them.
+import { DomainError } from "~/lib/errors";
 import { and, asc, eq, sql } from "drizzle-orm";
 import { z } from "zod";
 import { recordAudit } from "~/.server/audit/record-audit";
 import type { Db } from "~/.server/db/client";
 import { gainSet, loopTemplate, machineModel } from "~/.server/db/schema";
 import { toParallelGains } from "~/lib/control";
-
-export class GainSetRuleError extends Error {
-  constructor(message: string, readonly status: 400 | 404 = 400, readonly field?: string) {
-    super(message);
-  }
-}
 
 /** Loop templates the bench can save for, with what the page needs to show them. */
 export async function listBenchTemplates(db: Db, { organisationId }: { organisationId: string }) {
@@ -68,13 +63,13 @@ export async function saveDraftGainSet(db: Db, { organisationId, actor, input }:
       .where(and(eq(loopTemplate.organisationId, organisationId), eq(loopTemplate.id, input.templateId)))
       .for("update")
       .limit(1);
-    if (!template) throw new GainSetRuleError("No such loop template in this organisation.", 404, "templateId");
+    if (!template) throw new DomainError("invalid_gain_set", "No such loop template in this organisation.", { status: 404, field: "templateId" });
     const parallel = toParallelGains(input.gains);
     const gains = { kp: round(parallel.kp), ki: round(parallel.ki), kd: round(parallel.kd) };
     for (const name of ["kp", "ki", "kd"] as const) {
       const [min, max] = template.envelope[name];
       if (gains[name] < min || gains[name] > max) {
-        throw new GainSetRuleError(`${name} = ${gains[name]} is outside the safety envelope of ${template.key} (${min} to ${max}).`, 400, name);
+        throw new DomainError("invalid_gain_set", `${name} = ${gains[name]} is outside the safety envelope of ${template.key} (${min} to ${max}).`, { status: 400, field: name });
       }
     }
     const [{ next }] = (await tx

@@ -1,14 +1,16 @@
+import { DomainError } from "~/lib/errors";
+
 /**
- * The one error type the control engine throws for bad input. `field` names the offending
- * input (a dotted path such as `plant.timeConstant`) so a form can put the message beside it.
+ * The error the control engine throws for bad input: a DomainError whose `field` names the
+ * offending input (a dotted path such as `plant.timeConstant`) so a form can put the message
+ * beside it.
  */
-export class ControlInputError extends Error {
-  readonly field: string;
+export class ControlInputError extends DomainError {
+  declare readonly field: string;
 
   constructor(field: string, message: string) {
-    super(`${field}: ${message}`);
+    super("invalid_input", `${field}: ${message}`, { field, issues: [{ path: field.split("."), message: `${field}: ${message}` }] });
     this.name = "ControlInputError";
-    this.field = field;
   }
 }
 

@@ -9,7 +9,7 @@
 // and let an admin rename the slug that devices and signed configurations carry), is 404.
 import { admitSignIn, recordSignInSuccess } from "~/.server/auth/attempt-limits";
 import { getAuth } from "~/.server/auth/auth";
-import { apiError } from "~/.server/device-auth/http";
+import { apiError } from "~/.server/http/json";
 import { readLimitedText } from "~/.server/http/body";
 import type { Route } from "./+types/auth";
 

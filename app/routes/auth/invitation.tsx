@@ -1,7 +1,8 @@
+import { DomainError } from "~/lib/errors";
 import { data, Form, Link, redirect, useNavigation } from "react-router";
 import { getSessionUser } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
-import { acceptInvitation, getInvitationPreview, TeamRuleError } from "~/.server/members/team";
+import { acceptInvitation, getInvitationPreview } from "~/.server/members/team";
 import { AuthFrame } from "~/components/auth-frame";
 import { Button, buttonClass } from "~/components/ui/button";
 import { Notice } from "~/components/ui/notice";
@@ -33,7 +34,7 @@ export async function action({ request, params }: Route.ActionArgs) {
   try {
     await acceptInvitation(params.id, request.headers);
   } catch (error) {
-    if (error instanceof TeamRuleError) return data({ error: error.message }, { status: 400 });
+    if (error instanceof DomainError) return data({ error: error.message }, { status: 400 });
     throw error;
   }
   throw redirect(`/o/${preview.slug}`);

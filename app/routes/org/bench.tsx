@@ -1,7 +1,8 @@
 import { data } from "react-router";
 import { requireCapableMember } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
-import { DraftGainSetSchema, GainSetRuleError, listBenchTemplates, saveDraftGainSet } from "~/.server/tuning/gain-sets";
+import { actionFailure } from "~/.server/http/errors";
+import { DraftGainSetSchema, listBenchTemplates, saveDraftGainSet } from "~/.server/tuning/gain-sets";
 import { TuningBench } from "~/components/bench/tuning-bench";
 import { PageHeader } from "~/components/org-shell";
 import type { Route } from "./+types/bench";
@@ -34,8 +35,7 @@ export async function action({ request, params }: Route.ActionArgs) {
     const saved = await saveDraftGainSet(getDb(), { organisationId: membership.organisation.id, actor: membership.user.id, input: parsed.data });
     return data<SaveDraftResult>({ ok: true, version: saved.version, templateKey: saved.templateKey });
   } catch (error) {
-    if (error instanceof GainSetRuleError) return data<SaveDraftResult>({ ok: false, message: error.message, field: error.field }, { status: error.status });
-    throw error;
+    return actionFailure<SaveDraftResult>(error);
   }
 }
 

@@ -2,7 +2,8 @@ import { data, Form, useNavigation } from "react-router";
 import { z } from "zod";
 import { requireCapableMember } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
-import { FleetRuleError } from "~/.server/fleet/errors";
+import { actionFailure } from "~/.server/http/errors";
+
 import { addCustomer, addSite, CustomerInputSchema, listCustomers, listSites, SiteInputSchema, TIME_ZONES } from "~/.server/fleet/registry";
 import { getSiteScope } from "~/.server/fleet/scope";
 import { PageHeader } from "~/components/org-shell";
@@ -41,8 +42,7 @@ export async function action({ request, params }: Route.ActionArgs) {
     const row = await addSite(getDb(), { ...ctx, input: parsed.data });
     return data<ActionResult>({ ok: true, message: `${row.name} added.` });
   } catch (error) {
-    if (error instanceof FleetRuleError) return data<ActionResult>({ ok: false, message: error.message }, { status: error.status });
-    throw error;
+    return actionFailure<ActionResult>(error);
   }
 }
 

@@ -1,10 +1,11 @@
 import { useState } from "react";
 import { data } from "react-router";
 import { z } from "zod";
-import { ApiTokenRuleError, CreateApiTokenSchema, createApiToken, listApiTokens, revokeApiToken } from "~/.server/auth/api-tokens";
+import { CreateApiTokenSchema, createApiToken, listApiTokens, revokeApiToken } from "~/.server/auth/api-tokens";
 import { requireCapability, requireCapableMember } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
-import { getDeviceApiDocument } from "~/.server/device-auth/openapi";
+import { actionFailure } from "~/.server/http/errors";
+import { getDeviceApiDocument } from "~/.server/device-api/openapi";
 import { env } from "~/.server/env";
 import { ApiTokensPanel, type ApiTokenActionResult } from "~/components/developer/api-tokens-panel";
 import { PageHeader } from "~/components/org-shell";
@@ -47,8 +48,7 @@ export async function action({ request, params }: Route.ActionArgs) {
     await revokeApiToken(db, membership, parsed.data.id);
     return result({ ok: true, message: "Token revoked. Requests with it are refused from now on." });
   } catch (error) {
-    if (error instanceof ApiTokenRuleError) return result({ ok: false, message: error.message }, error.status);
-    throw error;
+    return actionFailure<ApiTokenActionResult>(error);
   }
 }
 

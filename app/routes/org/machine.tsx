@@ -2,7 +2,8 @@ import { data, Form, useNavigation } from "react-router";
 import { z } from "zod";
 import { requireCapability, requireCapableMember } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
-import { FleetRuleError } from "~/.server/fleet/errors";
+import { actionFailure } from "~/.server/http/errors";
+
 import { decommissionMachine, getMachine, regenerateEnrolmentCode, revokeMachineDevice } from "~/.server/fleet/machines";
 import { getSiteScope } from "~/.server/fleet/scope";
 import { formatAgo, formatDateTime, formatSig } from "~/components/fleet/format";
@@ -49,8 +50,7 @@ export async function action({ request, params }: Route.ActionArgs) {
       }
     }
   } catch (error) {
-    if (error instanceof FleetRuleError) return data<ActionResult>({ ok: false, message: error.message }, { status: error.status });
-    throw error;
+    return actionFailure<ActionResult>(error);
   }
 }
 

@@ -3,7 +3,8 @@ import { data, Form, Link, useNavigation } from "react-router";
 import { z } from "zod";
 import { requireCapableMember } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
-import { FleetRuleError } from "~/.server/fleet/errors";
+import { actionFailure } from "~/.server/http/errors";
+
 import { importMachinesFromCsv, readImportUpload, type MachineImportReport } from "~/.server/fleet/machine-import";
 import { listRegistryOptions } from "~/.server/fleet/registry";
 import { getSiteScope } from "~/.server/fleet/scope";
@@ -41,8 +42,7 @@ export async function action({ request, params }: Route.ActionArgs) {
     const report = await importMachinesFromCsv(db, { scope: await getSiteScope(db, membership), actor: membership.user.id, text: upload.text, mode: mode.data });
     return data<ActionResult>({ ok: true, report }, { status: report.outcome === "refused" ? 422 : 200 });
   } catch (error) {
-    if (error instanceof FleetRuleError) return data<ActionResult>({ ok: false, message: error.message }, { status: error.status });
-    throw error;
+    return actionFailure<ActionResult>(error);
   }
 }
 

@@ -1,7 +1,8 @@
+import { DomainError } from "~/lib/errors";
 import { data, Form, Link, useNavigation } from "react-router";
 import { requireCapableMember } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
-import { FleetRuleError } from "~/.server/fleet/errors";
+
 import { RegisterMachineSchema, registerMachine } from "~/.server/fleet/machines";
 import { listRegistryOptions } from "~/.server/fleet/registry";
 import { getSiteScope } from "~/.server/fleet/scope";
@@ -31,7 +32,7 @@ export async function action({ request, params }: Route.ActionArgs) {
     const created = await getDb().transaction((tx) => registerMachine(tx, { organisationId: membership.organisation.id, actor: membership.user.id, input: parsed.data }));
     return data<ActionResult>({ ok: true, message: `${created.machine.serial} is registered.`, machineId: created.machine.id, serial: created.machine.serial, code: created.enrolmentCode.code, expiresAt: created.enrolmentCode.expiresAt.toISOString() });
   } catch (error) {
-    if (error instanceof FleetRuleError) {
+    if (error instanceof DomainError) {
       const field = error.code === "serial_taken" ? "serial" : error.code === "unknown_site" ? "siteId" : error.code === "unknown_model" ? "modelId" : "form";
       return data<ActionResult>({ ok: false, message: error.message, errors: { [field]: [error.message] } }, { status: error.status });
     }

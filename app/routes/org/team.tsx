@@ -2,7 +2,8 @@ import { data, Form, useNavigation } from "react-router";
 import { z } from "zod";
 import { requireCapability, requireCapableMember, requireMembership } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
-import { ChangeRoleSchema, changeMemberRole, InviteSchema, inviteMember, listTeam, removeMember, resendInvitation, revokeInvitation, TeamRuleError } from "~/.server/members/team";
+import { actionFailure } from "~/.server/http/errors";
+import { ChangeRoleSchema, changeMemberRole, InviteSchema, inviteMember, listTeam, removeMember, resendInvitation, revokeInvitation } from "~/.server/members/team";
 import { PageHeader } from "~/components/org-shell";
 import { Button } from "~/components/ui/button";
 import { Field, SelectField } from "~/components/ui/field";
@@ -80,8 +81,7 @@ export async function action({ request, params }: Route.ActionArgs) {
       }
     }
   } catch (error) {
-    if (error instanceof TeamRuleError) return result(false, error.message, error.status);
-    throw error;
+    return actionFailure<ActionResult>(error);
   }
 }
 

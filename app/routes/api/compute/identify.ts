@@ -1,14 +1,16 @@
 // JSON {samples, method}, or a CSV upload: multipart with a `file` field (and optional
 // `method`), or a text/csv body with ?method=. CSV files are limited to 5 MB.
-import { answerWith, handleCompute, methodNotAllowed, requireComputeCaller } from "~/.server/compute/handle-compute";
-import { apiError, BodyTooLargeError, readBodyText } from "~/.server/http/api";
+import { answerWith, handleCompute, requireComputeCaller } from "~/.server/compute/handle-compute";
+import { methodNotAllowed } from "~/.server/http/json";
+import { readLimitedText } from "~/.server/http/body";
+import { apiError } from "~/.server/http/json";
 import { answerIdentify } from "~/lib/compute/run";
 import { IdentifyRequestSchema } from "~/lib/compute/schemas";
 import { MAX_CSV_BYTES, parseStepTestCsv } from "~/lib/compute/step-test-csv";
 import type { Route } from "./+types/identify";
 
 export function loader() {
-  return methodNotAllowed();
+  return methodNotAllowed("POST");
 }
 
 const tooLarge = () => apiError(413, "payload_too_large", `The CSV file is larger than ${MAX_CSV_BYTES / 1024 / 1024} MB.`);
@@ -29,13 +31,9 @@ export async function action({ request }: Route.ActionArgs) {
   // Multipart framing adds a little; the file itself is checked below.
   if (Number(request.headers.get("content-length") ?? "0") > MAX_CSV_BYTES + 64 * 1024) return tooLarge();
   if (type.startsWith("text/csv")) {
-    try {
-      const text = await readBodyText(request, MAX_CSV_BYTES);
-      return answerCsv(text, new URL(request.url).searchParams.get("method"));
-    } catch (error) {
-      if (error instanceof BodyTooLargeError) return tooLarge();
-      throw error;
-    }
+    const text = await readLimitedText(request, MAX_CSV_BYTES);
+    if (text === null) return tooLarge();
+    return answerCsv(text, new URL(request.url).searchParams.get("method"));
   }
   let form: FormData;
   try {

@@ -1,28 +1,26 @@
-// POST /api/v1/device/enrol (DESIGN.md section 4).
+// POST /api/v1/device/enrol: a one-time code and the device's public key make a device.
 import { admitEnrolment } from "~/.server/auth/attempt-limits";
 import { getDb } from "~/.server/db/client";
-import { EnrolmentRefused, enrolDevice } from "~/.server/device-auth/enrol";
-import { apiError, jsonResponse, readJsonBody, zodIssues } from "~/.server/device-auth/http";
-import { EnrolRequestSchema } from "~/.server/device-auth/schemas";
+import { enrolDevice } from "~/.server/device-auth/enrol";
+import { DEVICE_API_PATHS, DEVICE_BODY_LIMITS } from "~/.server/device-api/limits";
+import { EnrolRequestSchema } from "~/.server/device-api/schemas";
+import { handleApi } from "~/.server/http/errors";
+import { apiError, invalidBody, jsonResponse, methodNotAllowed, readJsonBody } from "~/.server/http/json";
 import type { Route } from "./+types/enrol";
 
 export function loader() {
-  return apiError(405, "method_not_allowed", "Use POST.", undefined, { allow: "POST" });
+  return methodNotAllowed("POST");
 }
 
-export async function action({ request }: Route.ActionArgs) {
-  if (request.method !== "POST") return loader();
-  const wait = await admitEnrolment(request);
-  if (wait) return apiError(429, "rate_limited", "Too many enrolment attempts from this address; retry later.", undefined, { "retry-after": String(wait.retryAfterS) });
-  const body = await readJsonBody(request, 16 * 1024);
-  if (!body.ok) return body.response;
-  const parsed = EnrolRequestSchema.safeParse(body.value);
-  if (!parsed.success) return apiError(400, "invalid_body", "The enrolment request is not valid.", zodIssues(parsed.error));
-  try {
+export function action({ request }: Route.ActionArgs) {
+  if (request.method !== "POST") return methodNotAllowed("POST");
+  return handleApi(async () => {
+    const wait = await admitEnrolment(request);
+    if (wait) return apiError(429, "rate_limited", "Too many enrolment attempts from this address; retry later.", undefined, { "retry-after": String(wait.retryAfterS) });
+    const body = await readJsonBody(request, { limit: DEVICE_BODY_LIMITS[DEVICE_API_PATHS.enrol] });
+    if (!body.ok) return body.response;
+    const parsed = EnrolRequestSchema.safeParse(body.value);
+    if (!parsed.success) return invalidBody(parsed.error, "invalid_body", "The enrolment request is not valid.");
     return jsonResponse(await enrolDevice(getDb(), parsed.data), 201);
-  } catch (error) {
-    if (error instanceof EnrolmentRefused) return apiError(error.status, error.code, error.message);
-    console.error(error);
-    return apiError(500, "internal_error", "Something went wrong on our side.");
-  }
+  });
 }

@@ -1,7 +1,7 @@
 // GET /api/v1/o/:slug/jwks.json: public keys that sign this organisation's device configurations.
 import { getDb } from "~/.server/db/client";
 import { getOrganisationJwks } from "~/.server/device-auth/signing-keys";
-import { apiError, jsonResponse } from "~/.server/device-auth/http";
+import { apiError, jsonResponse } from "~/.server/http/json";
 import type { Route } from "./+types/jwks";
 
 export async function loader({ params }: Route.LoaderArgs) {

@@ -1,7 +1,8 @@
 // GET /api/v1/o/:slug/loops/:id/digests?from=&to=&bucket=&page=&pageSize=
 import { getDb } from "~/.server/db/client";
-import { apiError, zodIssues } from "~/.server/device-auth/http";
-import { handleApi, methodNotAllowed, requireApiCaller } from "~/.server/fleet/api-auth";
+import { apiError, methodNotAllowed, zodIssues } from "~/.server/http/json";
+import { requireApiCaller } from "~/.server/fleet/api-auth";
+import { handleApi } from "~/.server/http/errors";
 import { DigestRangeQuerySchema, listLoopDigests } from "~/.server/fleet/digests";
 import { searchParams } from "~/.server/fleet/query";
 import type { Route } from "./+types/loop-digests";

@@ -2,8 +2,9 @@
 // POST /api/v1/o/:slug/machines/:id/revoke-device    → 200 {revoked}
 // POST /api/v1/o/:slug/machines/:id/decommission     → 200 {changed}
 import { getDb } from "~/.server/db/client";
-import { apiError, jsonResponse } from "~/.server/device-auth/http";
-import { handleApi, methodNotAllowed, requireApiCaller } from "~/.server/fleet/api-auth";
+import { apiError, jsonResponse, methodNotAllowed } from "~/.server/http/json";
+import { requireApiCaller } from "~/.server/fleet/api-auth";
+import { handleApi } from "~/.server/http/errors";
 import { decommissionMachine, regenerateEnrolmentCode, revokeMachineDevice } from "~/.server/fleet/machines";
 import type { Route } from "./+types/machine-command";
 

@@ -1,7 +1,8 @@
 // GET /api/v1/o/:slug/machines/:id (with its loops)
 import { getDb } from "~/.server/db/client";
-import { apiError } from "~/.server/device-auth/http";
-import { handleApi, methodNotAllowed, requireApiCaller } from "~/.server/fleet/api-auth";
+import { apiError, methodNotAllowed } from "~/.server/http/json";
+import { requireApiCaller } from "~/.server/fleet/api-auth";
+import { handleApi } from "~/.server/http/errors";
 import { getMachine } from "~/.server/fleet/machines";
 import type { Route } from "./+types/machine";
 

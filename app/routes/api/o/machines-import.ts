@@ -5,9 +5,10 @@
 // with 200, or 422 when all-or-nothing refused the file. Enrolment codes are in this answer only.
 import { z } from "zod";
 import { getDb } from "~/.server/db/client";
-import { apiError, jsonResponse, payloadTooLarge } from "~/.server/device-auth/http";
+import { apiError, jsonResponse, methodNotAllowed, payloadTooLarge } from "~/.server/http/json";
 import { env } from "~/.server/env";
-import { handleApi, methodNotAllowed, requireApiCaller } from "~/.server/fleet/api-auth";
+import { requireApiCaller } from "~/.server/fleet/api-auth";
+import { handleApi } from "~/.server/http/errors";
 import { importMachinesFromCsv, readImportUpload } from "~/.server/fleet/machine-import";
 import { IMPORT_MODES } from "~/lib/fleet/machine-import";
 import type { Route } from "./+types/machines-import";

@@ -1,8 +1,9 @@
 // GET /api/v1/o/:slug/machines?customerId=&siteId=&modelId=&health=&status=&q=&sort=&dir=&page=&pageSize=
 // POST /api/v1/o/:slug/machines {serial, modelId, siteId, firmware?} → 201 {machine, enrolmentCode}
 import { getDb } from "~/.server/db/client";
-import { apiError, jsonResponse, readJsonBody, zodIssues } from "~/.server/device-auth/http";
-import { handleApi, requireApiCaller } from "~/.server/fleet/api-auth";
+import { apiError, jsonResponse, methodNotAllowed, readJsonBody, zodIssues } from "~/.server/http/json";
+import { requireApiCaller } from "~/.server/fleet/api-auth";
+import { handleApi } from "~/.server/http/errors";
 import { getMachine, listMachines, MachineListQuerySchema, RegisterMachineSchema, registerMachine } from "~/.server/fleet/machines";
 import { searchParams } from "~/.server/fleet/query";
 import type { Route } from "./+types/machines";
@@ -18,9 +19,9 @@ export function loader({ request, params }: Route.LoaderArgs) {
 
 export function action({ request, params }: Route.ActionArgs) {
   return handleApi(async () => {
-    if (request.method !== "POST") return apiError(405, "method_not_allowed", "Use GET or POST.", undefined, { allow: "GET, POST" });
+    if (request.method !== "POST") return methodNotAllowed("GET", "POST");
     const caller = await requireApiCaller(request, params.slug, "machines:manage");
-    const body = await readJsonBody(request, 16 * 1024);
+    const body = await readJsonBody(request, { limit: 16 * 1024 });
     if (!body.ok) return body.response;
     const input = RegisterMachineSchema.safeParse(body.value);
     if (!input.success) return apiError(400, "invalid_body", "Check the machine's fields.", zodIssues(input.error));

@@ -1,7 +1,8 @@
 // GET /api/v1/o/:slug/models (each with its loop templates)
 import { getDb } from "~/.server/db/client";
-import { apiError, zodIssues } from "~/.server/device-auth/http";
-import { handleApi, methodNotAllowed, requireApiCaller } from "~/.server/fleet/api-auth";
+import { apiError, methodNotAllowed, zodIssues } from "~/.server/http/json";
+import { requireApiCaller } from "~/.server/fleet/api-auth";
+import { handleApi } from "~/.server/http/errors";
 import { PageQuerySchema, searchParams } from "~/.server/fleet/query";
 import { listModels } from "~/.server/fleet/registry";
 import type { Route } from "./+types/models";

@@ -1,7 +1,8 @@
 // GET /api/v1/o/:slug/sites?customerId=
 import { getDb } from "~/.server/db/client";
-import { apiError, zodIssues } from "~/.server/device-auth/http";
-import { handleApi, methodNotAllowed, requireApiCaller } from "~/.server/fleet/api-auth";
+import { apiError, methodNotAllowed, zodIssues } from "~/.server/http/json";
+import { requireApiCaller } from "~/.server/fleet/api-auth";
+import { handleApi } from "~/.server/http/errors";
 import { optionalId, PageQuerySchema, searchParams } from "~/.server/fleet/query";
 import { listSites } from "~/.server/fleet/registry";
 import type { Route } from "./+types/sites";

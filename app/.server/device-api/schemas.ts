@@ -1,6 +1,7 @@
 // The device API's contract (DESIGN.md section 4) as zod schemas: the routes validate with
 // them and the OpenAPI document at /api/v1/openapi.json is generated from them.
 import { z } from "zod";
+import { MAX_DIGESTS_PER_BATCH } from "./limits";
 
 export const LOOP_KEY_PATTERN = /^[a-z][a-z0-9_]{0,39}$/;
 
@@ -73,8 +74,7 @@ export const DigestSchema = z
   .meta({ id: "Digest" });
 export type DigestInput = z.infer<typeof DigestSchema>;
 
-export const MAX_DIGESTS_PER_BATCH = 500;
-export const MAX_DIGEST_BODY_BYTES = 256 * 1024;
+export { MAX_DIGESTS_PER_BATCH };
 
 export const DigestBatchSchema = z
   .object({ digests: z.array(z.unknown()).min(1, "Send at least one digest.").max(MAX_DIGESTS_PER_BATCH) })

@@ -2,14 +2,15 @@
 // signed with the organisation's Ed25519 key: per-loop gains with a monotonic version, and an
 // expiry, so the device can refuse forged, older or stale configurations. Until releases
 // exist, a loop's gains are its template's defaults (set when the machine is registered).
+import { DomainError } from "~/lib/errors";
 import { createHash } from "node:crypto";
 import { SignJWT } from "jose";
 import type { z } from "zod";
 import { recordAudit } from "~/.server/audit/record-audit";
 import { getDb, getPool } from "~/.server/db/client";
 import type { AckRequestSchema } from "./schemas";
-import { loadSigningKey } from "./signing-keys";
-import type { AuthenticatedDevice, DeviceContext } from "./tokens";
+import { loadSigningKey } from "~/.server/device-auth/signing-keys";
+import type { AuthenticatedDevice, DeviceContext } from "~/.server/device-auth/tokens";
 
 export const CONFIG_LIFETIME_S = 24 * 3600;
 
@@ -65,20 +66,14 @@ export async function getDeviceConfig(ctx: AuthenticatedDevice, ifNoneMatch: str
   return { notModified: false as const, etag, body: { jws, expiresAt: new Date(exp * 1000).toISOString(), jwksUrl: `/api/v1/o/${slug}/jwks.json` } };
 }
 
-export class AckRefused extends Error {
-  constructor(readonly code: string, message: string, readonly status: number) {
-    super(message);
-  }
-}
-
 export async function acknowledgeConfig(ctx: DeviceContext, input: z.infer<typeof AckRequestSchema>) {
   const current = await getPool().query<{ id: string; config_version: number }>(
     "select id, config_version from loop where organisation_id = $1 and machine_id = $2 and key = $3",
     [ctx.organisationId, ctx.machineId, input.loop],
   );
   const row = current.rows[0];
-  if (!row) throw new AckRefused("unknown_loop", `This machine has no loop "${input.loop}".`, 404);
-  if (input.version > row.config_version) throw new AckRefused("unknown_version", `Version ${input.version} was never issued for loop "${input.loop}".`, 409);
+  if (!row) throw new DomainError("unknown_loop", `This machine has no loop "${input.loop}".`, { status: 404 });
+  if (input.version > row.config_version) throw new DomainError("unknown_version", `Version ${input.version} was never issued for loop "${input.loop}".`, { status: 409 });
   const applied = input.status === "applied";
   await getPool().query(
     `update loop set ack_status = $4, ack_reason = $5, acked_at = now(),

@@ -3,7 +3,7 @@
 import { createBatcher } from "~/.server/db/batch";
 import { getIngestPool, getPool } from "~/.server/db/client";
 import { scheduleHealthRefresh } from "~/.server/fleet/health";
-import { deviceUnauthorized, refusalOf, runOncePerToken, TOKEN_CHECK_CTES, type DeviceContext, type TokenStanding, type VerifiedToken } from "./tokens";
+import { deviceUnauthorized, refusalOf, runOncePerToken, TOKEN_CHECK_CTES, type DeviceContext, type TokenStanding, type VerifiedToken } from "~/.server/device-auth/tokens";
 import { DigestSchema, type DigestInput } from "./schemas";
 
 export type Rejection = { index: number; code: string; message: string };
