@@ -3,7 +3,7 @@
 import { hashPassword } from "better-auth/crypto";
 import type { Db } from "~/.server/db/client";
 import { createSigningKey } from "~/.server/device-auth/signing-keys";
-import { account, customer, loopTemplate, machineModel, member, organisation, site, siteAssignment, user } from "~/.server/db/schema";
+import { account, customer, invitation, loopTemplate, machineModel, member, organisation, site, siteAssignment, user } from "~/.server/db/schema";
 import type { GainEnvelope, HealthThresholds, StoredGains } from "~/.server/db/schema";
 import { registerMachine } from "~/.server/fleet/machines";
 import type { Role } from "~/lib/access/capabilities";
@@ -158,4 +158,14 @@ export async function createTestFleet(db: Db, { organisationId, machinesPerSite 
     for (let i = 0; i < machinesPerSite; i++) machines.push(await createMachine(db, { organisationId, modelId: model.id, siteId: s.id, serial: `T-${suffix}-${s === siteA ? "A" : "B"}${i}` }));
   }
   return { customer: buyer, sites: [siteA, siteB], model, machines };
+}
+
+/** A pending invitation to an organisation, as the team page would create it (no e-mail sent). */
+export async function createInvitation(
+  db: Db,
+  { organisationId, inviterId, email, role = "engineer", expiresAt = new Date(Date.now() + 7 * 86_400_000) }: { organisationId: string; inviterId: string; email: string; role?: Role; expiresAt?: Date },
+) {
+  const id = crypto.randomUUID();
+  await db.insert(invitation).values({ id, organizationId: organisationId, inviterId, email: email.toLowerCase(), role, expiresAt });
+  return { id, organisationId, email: email.toLowerCase(), role, expiresAt };
 }

@@ -26,7 +26,7 @@ export default function NewOrganisation({ actionData }: Route.ComponentProps) {
   const busy = useNavigation().state === "submitting";
   const errors = actionData?.errors as Record<string, string[] | undefined> | undefined;
   return (
-    <AuthFrame title="New organisation" subtitle="One machine builder: its fleet, team and gain sets. You become its owner." footer={<Link to="/" className="text-accent hover:underline">Back</Link>}>
+    <AuthFrame title="New organisation" subtitle="One machine builder: its fleet, team and gain sets. You become its owner." footer={<Link to="/" className="link-in-text">Back</Link>}>
       <Form method="post" className="space-y-4" noValidate>
         {errors?.form ? <Notice tone="error">{errors.form[0]}</Notice> : null}
         <Field label="Name" name="name" required error={errors?.name} help="Usually the company name, e.g. Corvid Thermal Machines." />

@@ -5,7 +5,8 @@ const port = process.env.TEST_APP_PORT ?? "3100";
 // The app is built and started by scripts/test.sh; Playwright only drives Debian's Chromium.
 export default defineConfig({
   testDir: ".",
-  outputDir: "../../data/test-reports/playwright-output",
+  // One folder per app port, so parallel runs (see DEVELOPERS.md) do not clear each other's.
+  outputDir: `../../data/test-reports-${port}/playwright-output`,
   timeout: 60_000,
   expect: { timeout: 10_000 },
   workers: 1,

@@ -2,6 +2,7 @@
 // tooltip with the exact value and time. Sized to its container, so it reads at 390 px.
 import { useEffect, useRef, useState } from "react";
 import { Axis, Grid, LineSeries, Tooltip, XYChart } from "@visx/xychart";
+import { ChartFigures, evenlySpacedIndices } from "~/components/charts/chart-figures";
 
 export type TrendPoint = { t: number; v: number };
 
@@ -51,9 +52,9 @@ export function TrendChart({
       ) : (
         <Sized height={height}>
         {(width) => (
-        <XYChart width={width} height={height} margin={{ top: 10, right: 12, bottom: 28, left: 48 }} xScale={{ type: "time" }} yScale={{ type: "linear", domain: [0, max], nice: true }}>
+        <XYChart width={width} height={height} accessibilityLabel={`${title} (${unit}) over time`} margin={{ top: 10, right: 12, bottom: 28, left: 48 }} xScale={{ type: "time" }} yScale={{ type: "linear", domain: [0, max], nice: true }}>
           <Grid columns={false} numTicks={4} lineStyle={{ stroke: "var(--color-rule)", strokeWidth: 1 }} />
-          <Axis orientation="bottom" numTicks={3} tickFormat={(d: Date) => tick.format(d)} tickLabelProps={() => ({ fontSize: 10, fill: "var(--color-ink-faint)", textAnchor: "middle" })} stroke="var(--color-rule)" tickStroke="var(--color-rule)" />
+          <Axis orientation="bottom" numTicks={3} tickFormat={(d: Date) => tick.format(d)} tickLabelProps={() => ({ fontSize: 10, fill: "var(--color-ink-faint)", textAnchor: "middle" })} stroke="var(--color-rule-strong)" tickStroke="var(--color-rule-strong)" />
           <Axis
             orientation="left"
             numTicks={4}
@@ -61,8 +62,8 @@ export function TrendChart({
             labelProps={{ fontSize: 10, fill: "var(--color-ink-faint)" }}
             tickFormat={(v: number) => format(v)}
             tickLabelProps={() => ({ fontSize: 10, fill: "var(--color-ink-faint)", textAnchor: "end", dx: -2, dy: 3 })}
-            stroke="var(--color-rule)"
-            tickStroke="var(--color-rule)"
+            stroke="var(--color-rule-strong)"
+            tickStroke="var(--color-rule-strong)"
           />
           {thresholdLine.length ? <LineSeries dataKey="threshold" data={thresholdLine} {...accessors} stroke="var(--color-act)" strokeDasharray="4 4" strokeWidth={1} /> : null}
           <LineSeries dataKey={title} data={points} {...accessors} stroke="var(--color-accent)" strokeWidth={1.25} />
@@ -85,8 +86,24 @@ export function TrendChart({
         )}
         </Sized>
       )}
+      {points.length > 0 ? (
+        <ChartFigures
+          title={title}
+          summary={describeTrend(points, unit, format, threshold, thresholdLabel)}
+          headers={["Time (UTC)", `${title} (${unit})`]}
+          rows={evenlySpacedIndices(points.length, 12).map((i) => [timeFormat.format(new Date(points[i].t)), format(points[i].v)])}
+        />
+      ) : null}
     </figure>
   );
+}
+
+/** One sentence with what the chart shows: how many points, over what time, their range. */
+function describeTrend(points: TrendPoint[], unit: string, format: (v: number) => string, threshold?: number, thresholdLabel?: string) {
+  const values = points.map((p) => p.v);
+  const range = `${timeFormat.format(new Date(points[0].t))} to ${timeFormat.format(new Date(points[points.length - 1].t))} UTC`;
+  const limit = threshold !== undefined ? `; ${thresholdLabel ?? "threshold"} ${format(threshold)} ${unit}` : "";
+  return `${points.length} points from ${range}, lowest ${format(Math.min(...values))}, highest ${format(Math.max(...values))} ${unit}${limit}.`;
 }
 
 /** Measures its own width (ResizeObserver) and renders the chart once it is known. */

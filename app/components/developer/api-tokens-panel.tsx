@@ -75,7 +75,7 @@ export function ApiTokensPanel({ tokens, manage, slug, actionData }: { tokens: A
       {tokens.length === 0 ? (
         <p className="rounded-xl border border-dashed border-rule bg-white px-5 py-6 text-sm text-ink-soft">No API tokens yet.{manage ? " Create one for each system that calls Flyball, so you can revoke them one by one." : " Owners and admins create them."}</p>
       ) : (
-        <div className="overflow-x-auto rounded-xl border border-rule bg-white">
+        <div role="region" tabIndex={0} aria-label="API tokens" className="overflow-x-auto rounded-xl border border-rule bg-white">
           <table className="w-full text-sm">
             <thead className="bg-paper text-left text-xs uppercase tracking-wide text-ink-faint">
               <tr>

@@ -3,7 +3,7 @@ import type { HealthBand } from "~/lib/health";
 // Health is always colour + icon + word (DESIGN.md section 10), with the score beside it.
 const BANDS: Record<HealthBand, { word: string; icon: string; className: string }> = {
   steady: { word: "steady", icon: "●", className: "border-steady/30 bg-steady/10 text-steady" },
-  watch: { word: "watch", icon: "▲", className: "border-watch/40 bg-watch/10 text-[#8a5a12]" },
+  watch: { word: "watch", icon: "▲", className: "border-watch/40 bg-watch/10 text-watch" },
   act: { word: "act", icon: "■", className: "border-act/30 bg-act/10 text-act" },
   silent: { word: "silent", icon: "○", className: "border-silent/30 bg-silent/10 text-silent" },
 };

@@ -28,7 +28,7 @@ function TableFrame({ caption, count, children }: { caption: string; count: stri
         <h2 className="text-sm font-semibold text-ink">{caption}</h2>
         <span className="tabular shrink-0 text-xs text-ink-faint">{count}</span>
       </div>
-      <div className="max-h-[60vh] overflow-auto rounded-xl border border-rule bg-white">{children}</div>
+      <div role="region" tabIndex={0} aria-label={caption} className="max-h-[60vh] overflow-auto rounded-xl border border-rule bg-white">{children}</div>
     </section>
   );
 }

@@ -46,7 +46,7 @@ function Trends({ slug, loops }: { slug: string; loops: TrendLoop[] }) {
         <div className="flex flex-wrap gap-2 text-sm">
           <label className="flex flex-col text-xs text-ink-faint">
             Loop
-            <select value={loopId} onChange={(e) => setLoopId(e.target.value)} className="rounded-md border border-rule bg-white px-2 py-1 text-sm text-ink">
+            <select value={loopId} onChange={(e) => setLoopId(e.target.value)} className="rounded-md border border-rule-strong bg-white px-2 py-1 text-sm text-ink">
               {loops.map((l) => <option key={l.id} value={l.id}>{l.name}</option>)}
             </select>
           </label>

@@ -91,7 +91,7 @@ export function MachinesTable({ slug, rows, sort, dir }: { slug: string; rows: M
   });
 
   return (
-    <div className="max-h-[70vh] overflow-auto rounded-xl border border-rule bg-white">
+    <div role="region" tabIndex={0} aria-label="Machines" className="max-h-[70vh] overflow-auto rounded-xl border border-rule bg-white">
       <table className="w-full min-w-[56rem] text-sm">
         <thead className="sticky top-0 z-10 bg-paper text-left text-xs uppercase tracking-wide text-ink-faint shadow-[0_1px_0_var(--color-rule)]">
           {table.getHeaderGroups().map((group) => (

@@ -8,7 +8,7 @@ type FieldProps = {
 } & InputHTMLAttributes<HTMLInputElement>;
 
 const inputClass =
-  "block w-full rounded-md border border-rule bg-white px-3 py-2 text-sm text-ink shadow-xs placeholder:text-ink-faint focus:border-accent focus:outline-none focus:ring-2 focus:ring-accent/20 aria-invalid:border-act";
+  "block w-full rounded-md border border-rule-strong bg-white px-3 py-2 text-sm text-ink shadow-xs placeholder:text-ink-faint focus:border-accent focus:outline-none focus:ring-2 focus:ring-accent/30 aria-invalid:border-act";
 
 function firstError(error: string | string[] | undefined) {
   return Array.isArray(error) ? error[0] : error;

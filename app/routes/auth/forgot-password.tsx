@@ -26,7 +26,7 @@ export async function action({ request }: Route.ActionArgs) {
 export default function ForgotPassword({ actionData }: Route.ComponentProps) {
   const busy = useNavigation().state === "submitting";
   return (
-    <AuthFrame title="Reset your password" subtitle="We e-mail you a link to choose a new one." footer={<Link to="/sign-in" className="text-accent hover:underline">Back to sign in</Link>}>
+    <AuthFrame title="Reset your password" subtitle="We e-mail you a link to choose a new one." footer={<Link to="/sign-in" className="link-in-text">Back to sign in</Link>}>
       {actionData?.sent ? (
         <Notice tone="success" title="Check your inbox">If an account uses this address, a reset link is on its way. It works for one hour.</Notice>
       ) : (

@@ -58,7 +58,7 @@ export default function SignIn({ loaderData, actionData }: Route.ComponentProps)
       footer={
         <>
           New here?{" "}
-          <Link to={`/sign-up${nextQuery}`} className="font-medium text-accent hover:underline">
+          <Link to={`/sign-up${nextQuery}`} className="link-in-text font-medium">
             Create an account
           </Link>
         </>

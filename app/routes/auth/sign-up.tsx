@@ -59,7 +59,7 @@ export default function SignUp({ loaderData, actionData }: Route.ComponentProps)
       footer={
         <>
           Already have an account?{" "}
-          <Link to={`/sign-in${loaderData.next ? `?next=${encodeURIComponent(loaderData.next)}` : ""}`} className="font-medium text-accent hover:underline">
+          <Link to={`/sign-in${loaderData.next ? `?next=${encodeURIComponent(loaderData.next)}` : ""}`} className="link-in-text font-medium">
             Sign in
           </Link>
         </>

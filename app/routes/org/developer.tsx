@@ -60,7 +60,7 @@ function Copyable({ label, text }: { label: string; text: string }) {
         <span>{label}</span>
         <button type="button" className="text-accent hover:underline" onClick={() => navigator.clipboard?.writeText(text).then(() => setCopied(true))}>{copied ? "Copied" : "Copy"}</button>
       </div>
-      <pre className="overflow-x-auto px-3 py-2 font-mono text-xs leading-relaxed">{text}</pre>
+      <pre role="region" tabIndex={0} aria-label={label} className="overflow-x-auto px-3 py-2 font-mono text-xs leading-relaxed">{text}</pre>
     </div>
   );
 }
@@ -85,7 +85,7 @@ const token = await new SignJWT({})
 # → {"accepted":1,"duplicates":0,"rejected":[]}`;
   return (
     <>
-      <PageHeader title="Developer" description={<>API tokens for your own systems, and the device API your controllers speak. The machine-readable contract is <a className="text-accent hover:underline" href="/api/v1/openapi.json">/api/v1/openapi.json</a> (OpenAPI 3.1); configuration signing keys are at <a className="text-accent hover:underline" href={`/api/v1/o/${slug}/jwks.json`}>/api/v1/o/{slug}/jwks.json</a>.</>} />
+      <PageHeader title="Developer" description={<>API tokens for your own systems, and the device API your controllers speak. The machine-readable contract is <a className="link-in-text" href="/api/v1/openapi.json">/api/v1/openapi.json</a> (OpenAPI 3.1); configuration signing keys are at <a className="link-in-text" href={`/api/v1/o/${slug}/jwks.json`}>/api/v1/o/{slug}/jwks.json</a>.</>} />
       <div className="border-b border-rule px-5 py-6 sm:px-8">
         <ApiTokensPanel tokens={tokens} manage={manageTokens} slug={slug} actionData={actionData} />
       </div>
@@ -115,7 +115,7 @@ const token = await new SignJWT({})
             )),
           )}
           <h2 className="pt-2 font-semibold">Digest fields</h2>
-          <div className="overflow-x-auto rounded-xl border border-rule bg-white">
+          <div role="region" tabIndex={0} aria-label="Digest fields" className="overflow-x-auto rounded-xl border border-rule bg-white">
             <table className="w-full text-xs">
               <thead className="bg-paper text-left uppercase tracking-wide text-ink-faint"><tr><th className="px-3 py-1.5">Field</th><th className="px-3 py-1.5">Type</th><th className="px-3 py-1.5">Meaning</th></tr></thead>
               <tbody className="divide-y divide-rule">

@@ -101,7 +101,7 @@ export default function MachinePage({ loaderData, actionData }: Route.ComponentP
 
         <section aria-labelledby="loops-heading">
           <h2 id="loops-heading" className="font-semibold">Loops</h2>
-          <div className="mt-2 overflow-x-auto rounded-xl border border-rule bg-white">
+          <div role="region" tabIndex={0} aria-labelledby="loops-heading" className="mt-2 overflow-x-auto rounded-xl border border-rule bg-white">
             <table className="w-full min-w-[52rem] text-sm">
               <thead className="sticky top-0 bg-paper text-left text-xs uppercase tracking-wide text-ink-faint">
                 <tr>

@@ -74,7 +74,7 @@ export default function ImportMachines({ loaderData, actionData }: Route.Compone
           <div className="max-w-xl">
             <Notice tone="info" title="Something is missing first">
               Machines need a model and a site to be imported into.{" "}
-              {models.length === 0 ? <Link to={`/o/${slug}/models`} className="text-accent hover:underline">Add a machine model</Link> : <Link to={`/o/${slug}/customers`} className="text-accent hover:underline">Add a customer site</Link>}.
+              {models.length === 0 ? <Link to={`/o/${slug}/models`} className="link-in-text">Add a machine model</Link> : <Link to={`/o/${slug}/customers`} className="link-in-text">Add a customer site</Link>}.
             </Notice>
           </div>
         ) : (

@@ -57,7 +57,7 @@ export default function RegisterMachine({ loaderData, actionData }: Route.Compon
         ) : actionData ? <Notice tone="error">{actionData.message}</Notice> : null}
         {options.models.length === 0 || options.sites.length === 0 ? (
           <Notice tone="info" title="Something is missing first">
-            A machine needs a model and a site. {options.models.length === 0 ? <Link to={`/o/${slug}/models`} className="text-accent hover:underline">Add a machine model</Link> : <Link to={`/o/${slug}/customers`} className="text-accent hover:underline">Add a customer site</Link>}.
+            A machine needs a model and a site. {options.models.length === 0 ? <Link to={`/o/${slug}/models`} className="link-in-text">Add a machine model</Link> : <Link to={`/o/${slug}/customers`} className="link-in-text">Add a customer site</Link>}.
           </Notice>
         ) : (
           <Form method="post" className="space-y-4 rounded-xl border border-rule bg-white p-5" noValidate>

@@ -25,7 +25,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   return { machines, options, query, invalidQuery: !parsed.success, canManage: can(membership.role, "machines:manage"), slug: membership.organisation.slug };
 }
 
-const selectClass = "rounded-md border border-rule bg-white px-2 py-1.5 text-sm";
+const selectClass = "rounded-md border border-rule-strong bg-white px-2 py-1.5 text-sm";
 
 /** One labelled filter of the machines table; the empty option means "no filter". */
 function FilterSelect({ label, name, value, anyLabel, options }: { label: string; name: string; value: string | undefined; anyLabel: string; options: { value: string; label: string }[] }) {
@@ -99,9 +99,9 @@ export default function Machines({ loaderData }: Route.ComponentProps) {
         {machines.items.length === 0 ? (
           <div className="rounded-xl border border-dashed border-rule bg-white px-5 py-8 text-sm text-ink-soft">
             {filtered ? (
-              <>No machine matches these filters. <Link to="?" className="text-accent hover:underline">Clear the filters</Link> to see the whole fleet.</>
+              <>No machine matches these filters. <Link to="?" className="link-in-text">Clear the filters</Link> to see the whole fleet.</>
             ) : canManage ? (
-              <>No machines are registered yet. Register one to get a one-time enrolment code for its controller,. <Link to="new" className="text-accent hover:underline">Register a machine</Link></>
+              <>No machines are registered yet. Register one to get a one-time enrolment code for its controller,. <Link to="new" className="link-in-text">Register a machine</Link></>
             ) : (
               <>No machines are visible to you yet. Machines appear here once your OEM registers them at your sites.</>
             )}

@@ -27,7 +27,7 @@ export default function Models({ loaderData }: Route.ComponentProps) {
               <h2 className="font-semibold">{m.name} <span className="text-xs font-normal text-ink-faint tabular">{m.machineCount} machines</span></h2>
               {m.description ? <p className="text-sm text-ink-soft">{m.description}</p> : null}
             </div>
-            <div className="overflow-x-auto">
+            <div role="region" tabIndex={0} aria-label={`Loop templates of ${m.name}`} className="overflow-x-auto">
               <table className="w-full min-w-[60rem] text-sm">
                 <thead className="bg-paper text-left text-xs uppercase tracking-wide text-ink-faint">
                   <tr>

@@ -130,7 +130,7 @@ export default function Team({ loaderData, actionData }: Route.ComponentProps) {
                             <input type="hidden" name="intent" value="change-role" />
                             <input type="hidden" name="memberId" value={m.id} />
                             <label className="sr-only" htmlFor={`role-${m.id}`}>Role of {m.name}</label>
-                            <select id={`role-${m.id}`} name="role" defaultValue={m.role} className="rounded-md border border-rule bg-white px-2 py-1 text-sm">
+                            <select id={`role-${m.id}`} name="role" defaultValue={m.role} className="rounded-md border border-rule-strong bg-white px-2 py-1 text-sm">
                               {ROLES.filter((r) => canAssignRole(me.role, m.role, r)).map((r) => (
                                 <option key={r} value={r}>{ROLE_LABELS[r]}</option>
                               ))}
