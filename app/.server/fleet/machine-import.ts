@@ -9,7 +9,8 @@ import { readLimitedBytes } from "~/.server/http/body";
 import { machine } from "~/.server/db/schema";
 import { MAX_IMPORT_BYTES, matchImportRows, parseMachineImport, type ImportMode, type ReadyRow, type RejectedRow } from "~/lib/fleet/machine-import";
 
-import { FirmwareSchema, registerMachine, SerialSchema } from "./machines";
+import { registerMachine } from "./machines";
+import { FirmwareSchema, SerialSchema } from "~/lib/fleet/schemas";
 import { listRegistryOptions } from "./registry";
 import type { SiteScope } from "./scope";
 

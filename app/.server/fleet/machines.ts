@@ -7,46 +7,10 @@ import { z } from "zod";
 import { recordAudit } from "~/.server/audit/record-audit";
 import type { Db } from "~/.server/db/client";
 import { customer, device, enrolmentCode, loop, loopTemplate, machine, machineModel, site } from "~/.server/db/schema";
-import { HEALTH_BANDS, type HealthBand } from "~/lib/health";
+import { MACHINE_STATUSES, type MachineListQuery, type MachineSort, type RegisterMachineInput } from "~/lib/fleet/schemas";
+import type { HealthBand } from "~/lib/health";
 import { issueEnrolmentCode } from "./enrolment-codes";
-
 import { inScope, type SiteScope } from "./scope";
-
-export const MACHINE_STATUSES = ["active", "decommissioned"] as const;
-export const MACHINE_SORTS = ["serial", "model", "site", "customer", "health", "lastSeen", "firmware", "status"] as const;
-export type MachineSort = (typeof MACHINE_SORTS)[number];
-
-const uuidOrUndefined = z.preprocess((v) => (v === "" || v === null ? undefined : v), z.uuid("Must be an id.").optional());
-
-export const MachineListQuerySchema = z.object({
-  customerId: uuidOrUndefined,
-  siteId: uuidOrUndefined,
-  modelId: uuidOrUndefined,
-  health: z.preprocess((v) => (v === "" || v === null ? undefined : v), z.enum(HEALTH_BANDS as [HealthBand, ...HealthBand[]]).optional()),
-  status: z.preprocess((v) => (v === "" || v === null ? undefined : v), z.enum(MACHINE_STATUSES).optional()),
-  q: z.preprocess((v) => (v === null ? undefined : v), z.string().trim().max(100, "Search at most 100 characters.").optional()),
-  sort: z.preprocess((v) => (v === "" || v === null ? undefined : v), z.enum(MACHINE_SORTS).default("serial")),
-  dir: z.preprocess((v) => (v === "" || v === null ? undefined : v), z.enum(["asc", "desc"]).default("asc")),
-  page: z.preprocess((v) => (v === "" || v === null ? undefined : v), z.coerce.number().int().min(1).max(100_000).default(1)),
-  pageSize: z.preprocess((v) => (v === "" || v === null ? undefined : v), z.coerce.number().int().min(1).max(200).default(25)),
-});
-export type MachineListQuery = z.infer<typeof MachineListQuerySchema>;
-
-export const SerialSchema = z
-  .string()
-  .trim()
-  .min(1, "Enter the serial.")
-  .max(64, "Use at most 64 characters.")
-  .regex(/^[A-Za-z0-9][A-Za-z0-9._\-/]*$/, "Use letters, digits, dot, hyphen, underscore or slash.");
-export const FirmwareSchema = z.string().trim().min(1).max(64, "Use at most 64 characters.");
-
-export const RegisterMachineSchema = z.object({
-  serial: SerialSchema,
-  modelId: z.uuid("Choose a machine model."),
-  siteId: z.uuid("Choose a site."),
-  firmware: z.preprocess((v) => (v === "" || v === null ? undefined : v), FirmwareSchema.optional()),
-});
-export type RegisterMachineInput = z.infer<typeof RegisterMachineSchema>;
 
 // Band of each loop: silent when its last digest is older than the template's limit.
 const LOOP_RANK = sql`case

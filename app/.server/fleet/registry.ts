@@ -5,7 +5,8 @@
 // the subquery would resolve to the subquery's own table.
 import { DomainError } from "~/lib/errors";
 import { and, asc, count, eq, inArray, sql, type SQL } from "drizzle-orm";
-import { z } from "zod";
+import type { z } from "zod";
+import type { CustomerInputSchema, SiteInputSchema } from "~/lib/fleet/schemas";
 import { recordAudit } from "~/.server/audit/record-audit";
 import type { Db } from "~/.server/db/client";
 import { customer, loopTemplate, machine, machineModel, site } from "~/.server/db/schema";
@@ -70,15 +71,6 @@ export async function listSites(db: Db, scope: SiteScope, { page, pageSize, cust
     .offset((page - 1) * pageSize);
   return { items, total, page, pageSize };
 }
-
-export const TIME_ZONES = typeof Intl.supportedValuesOf === "function" ? Intl.supportedValuesOf("timeZone") : ["UTC"];
-
-export const CustomerInputSchema = z.object({ name: z.string().trim().min(2, "Use at least 2 characters.").max(120) });
-export const SiteInputSchema = z.object({
-  customerId: z.uuid("Choose a customer."),
-  name: z.string().trim().min(2, "Use at least 2 characters.").max(120),
-  timeZone: z.string().refine((tz) => tz === "UTC" || TIME_ZONES.includes(tz), "Choose an IANA time zone, e.g. Europe/Oslo."),
-});
 
 export async function addCustomer(db: Db, { organisationId, actor, input }: { organisationId: string; actor: string; input: z.infer<typeof CustomerInputSchema> }) {
   const [row] = await db.insert(customer).values({ organisationId, name: input.name }).onConflictDoNothing().returning();

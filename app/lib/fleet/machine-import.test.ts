@@ -1,5 +1,5 @@
 import { describe, expect, it } from "vitest";
-import { FirmwareSchema, SerialSchema } from "~/.server/fleet/machines";
+import { FirmwareSchema, SerialSchema } from "./schemas";
 import { enrolmentCodesCsv, matchImportRows, MAX_IMPORT_ROWS, parseMachineImport, type ImportLookups } from "./machine-import";
 
 const rules = { serial: SerialSchema, firmware: FirmwareSchema };

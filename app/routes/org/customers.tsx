@@ -4,7 +4,8 @@ import { requireCapableMember } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
 import { actionFailure } from "~/.server/http/errors";
 
-import { addCustomer, addSite, CustomerInputSchema, listCustomers, listSites, SiteInputSchema, TIME_ZONES } from "~/.server/fleet/registry";
+import { addCustomer, addSite, listCustomers, listSites } from "~/.server/fleet/registry";
+import { CustomerInputSchema, SiteInputSchema, TIME_ZONES } from "~/lib/fleet/schemas";
 import { getSiteScope } from "~/.server/fleet/scope";
 import { PageHeader } from "~/components/org-shell";
 import { Button } from "~/components/ui/button";

@@ -3,7 +3,8 @@ import { data, Form, Link, useNavigation } from "react-router";
 import { requireCapableMember } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
 
-import { RegisterMachineSchema, registerMachine } from "~/.server/fleet/machines";
+import { registerMachine } from "~/.server/fleet/machines";
+import { RegisterMachineSchema } from "~/lib/fleet/schemas";
 import { listRegistryOptions } from "~/.server/fleet/registry";
 import { getSiteScope } from "~/.server/fleet/scope";
 import { formatDateTime } from "~/components/fleet/format";

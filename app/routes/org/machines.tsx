@@ -1,7 +1,8 @@
 import { Form, Link, useNavigation, useSearchParams } from "react-router";
 import { requireCapableMember } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
-import { listMachines, MachineListQuerySchema } from "~/.server/fleet/machines";
+import { listMachines } from "~/.server/fleet/machines";
+import { MachineListQuerySchema } from "~/lib/fleet/schemas";
 import { listRegistryOptions } from "~/.server/fleet/registry";
 import { getSiteScope } from "~/.server/fleet/scope";
 import { HEALTH_LABELS } from "~/components/fleet/health-badge";

@@ -1,7 +1,8 @@
 import { Link } from "react-router";
 import { requireCapableMember } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
-import { listMachines, MachineListQuerySchema } from "~/.server/fleet/machines";
+import { listMachines } from "~/.server/fleet/machines";
+import { MachineListQuerySchema } from "~/lib/fleet/schemas";
 import { getSiteScope } from "~/.server/fleet/scope";
 import { HealthBadge, HEALTH_LABELS } from "~/components/fleet/health-badge";
 import { PageHeader } from "~/components/org-shell";

@@ -4,7 +4,8 @@ import { getDb } from "~/.server/db/client";
 import { apiError, jsonResponse, methodNotAllowed, readJsonBody, zodIssues } from "~/.server/http/json";
 import { requireApiCaller } from "~/.server/fleet/api-auth";
 import { handleApi } from "~/.server/http/errors";
-import { getMachine, listMachines, MachineListQuerySchema, RegisterMachineSchema, registerMachine } from "~/.server/fleet/machines";
+import { getMachine, listMachines, registerMachine } from "~/.server/fleet/machines";
+import { MachineListQuerySchema, RegisterMachineSchema } from "~/lib/fleet/schemas";
 import { searchParams } from "~/.server/fleet/query";
 import type { Route } from "./+types/machines";
 

@@ -3,7 +3,8 @@ import { getDb } from "~/.server/db/client";
 import { apiError, methodNotAllowed, zodIssues } from "~/.server/http/json";
 import { requireApiCaller } from "~/.server/fleet/api-auth";
 import { handleApi } from "~/.server/http/errors";
-import { optionalId, PageQuerySchema, searchParams } from "~/.server/fleet/query";
+import { searchParams } from "~/.server/fleet/query";
+import { optionalId, PageQuerySchema } from "~/lib/fleet/schemas";
 import { listSites } from "~/.server/fleet/registry";
 import type { Route } from "./+types/sites";
 
