@@ -83,7 +83,7 @@ export type LoopTemplateSpec = {
   thresholds?: Partial<HealthThresholds>;
 };
 
-/** Defaults labelled as practice (REFERENCES.md "Loop health": no single published threshold). */
+/** Defaults labelled as practice (app/lib/health/REFERENCES.md: no single published threshold). */
 export const DEFAULT_THRESHOLDS: HealthThresholds = {
   acceptableAmplitude: 1,
   ultimatePeriod: 60,

@@ -211,7 +211,7 @@ async function main() {
   }
   // Config pulls answered 304: the app; the baseline after the same loop lookup; the baseline
   // after checking the device token's signature with jose and nothing else (the least any
-  // implementation of DESIGN.md section 4 must do); and a bare node:http answer.
+  // implementation of the device API must do); and a bare node:http answer.
   if (ONLY.has("304")) {
     const etags: string[] = [];
     for (const c of clients) etags.push((await c.getConfig()).headers.get("etag")!);

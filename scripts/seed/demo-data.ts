@@ -1,4 +1,4 @@
-// The invented demo scenario of DESIGN.md section 9. Names, sites and people are made up.
+// The invented demo scenario (README.md, "Demo sign-ins"). Names, sites and people are made up.
 import type { Role } from "~/lib/access/capabilities";
 
 export const DEMO_PASSWORD = "flyball-demo";
@@ -128,7 +128,7 @@ export const DEMO_FLEETS: Record<string, DemoFleet> = {
           outputMin: 0,
           outputMax: 100,
           defaultGains: { kp: 1.25, ki: 0.83, kd: 0 },
-          // a ≈ 1 % of a 0–150 m³/h range (REFERENCES.md, Hägglund 1995: a is 1 % of range).
+          // a ≈ 1 % of a 0–150 m³/h range (app/lib/health/REFERENCES.md, Hägglund 1995: a is 1 % of range).
           thresholds: { acceptableAmplitude: 1.5, ultimatePeriod: 1.5, oscillationPerHour: 480 },
         },
         {

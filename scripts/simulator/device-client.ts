@@ -50,7 +50,7 @@ export class DeviceClient {
     return response;
   }
 
-  /** A token with the claims DESIGN.md section 4 asks for; `overrides` lets tests forge. */
+  /** A token with the claims the device API asks for; `overrides` lets tests forge. */
   async token(overrides: { lifetime?: number; iat?: number; aud?: string; iss?: string; jti?: string; kid?: string } = {}): Promise<string> {
     const iat = overrides.iat ?? Math.floor(Date.now() / 1000);
     return new SignJWT({})

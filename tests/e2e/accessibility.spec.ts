@@ -24,7 +24,7 @@ const WIDTHS = [
   { width: 390, height: 844 },
 ];
 const SLUG = "corvid";
-/** The signed-out visitor and the four roles of DESIGN.md section 3 (demo sign-ins in README.md). */
+/** The signed-out visitor and the four roles that read pages (demo sign-ins in README.md). */
 const ROLES = [
   { name: "visitor", email: null },
   { name: "owner", email: "owner@corvid.example" },

@@ -1,4 +1,4 @@
-// The compute API over HTTP: published check values (REFERENCES.md) and hostile input.
+// The compute API over HTTP: published check values (app/lib/control/REFERENCES.md) and hostile input.
 import { beforeAll, describe, expect, it } from "vitest";
 import { APP_URL, postJson, signIn, type Session } from "../support/http";
 
@@ -28,13 +28,13 @@ const cubicLag = { type: "tf", numerator: [1], denominator: [1, 3, 3, 1] };
 
 describe("POST /api/v1/compute/margins", () => {
   it("gives GM exactly 2 for Ziegler–Nichols P control (Kc = Ku/2 = 4) on 1/(s+1)^3", async () => {
-    // REFERENCES.md closed-form facts (derived): Ku = 8, ωu = √3 for 1/(s+1)^3.
+    // app/lib/control/REFERENCES.md closed-form facts (derived): Ku = 8, ωu = √3 for 1/(s+1)^3.
     const { status, body } = await compute("margins", { plant: cubicLag, controller: { form: "standard", kc: 4, ti: null, td: 0 } });
     expect(status).toBe(200);
     expect(Object.keys(body).sort()).toEqual(["delayMargin", "gainCrossoverFrequency", "gainMargin", "peakSensitivity", "phaseCrossoverFrequency", "phaseMargin"]);
     expect(body.gainMargin).toBeCloseTo(2, 4);
     expect(body.phaseCrossoverFrequency).toBeCloseTo(Math.sqrt(3), 4);
-    // GM ≥ Ms/(Ms − 1) (REFERENCES.md margins, published inequality)
+    // GM ≥ Ms/(Ms − 1) (app/lib/control/REFERENCES.md margins, published inequality)
     expect(body.gainMargin).toBeGreaterThanOrEqual(body.peakSensitivity / (body.peakSensitivity - 1) - 1e-9);
   });
 
@@ -49,7 +49,7 @@ describe("POST /api/v1/compute/margins", () => {
 
 describe("POST /api/v1/compute/tune", () => {
   it("gives Ziegler–Nichols PID 4.8 / 1.8138 / 0.4534 from Ku 8, Pu 3.627599", async () => {
-    // Ziegler & Nichols 1942 (memory): PID 0.6Ku, Pu/2, Pu/8 — REFERENCES.md check (derived).
+    // Ziegler & Nichols 1942 (memory): PID 0.6Ku, Pu/2, Pu/8 — app/lib/control/REFERENCES.md check (derived).
     const { status, body } = await compute("tune", { ultimate: { ku: 8, pu: 2 * Math.PI / Math.sqrt(3) }, rule: "ziegler-nichols", controller: "pid" });
     expect(status).toBe(200);
     expect(body.rule).toBe("ziegler-nichols");
@@ -93,7 +93,7 @@ describe("POST /api/v1/compute/tune", () => {
 describe("POST /api/v1/compute/identify", () => {
   const data = fopdtStepTest(2, 10, 2);
 
-  it("gives Smith's (τ, θ) = (10.0049, 1.9918) on exact FOPDT data (REFERENCES.md, derived)", async () => {
+  it("gives Smith's (τ, θ) = (10.0049, 1.9918) on exact FOPDT data (app/lib/control/REFERENCES.md, derived)", async () => {
     const { status, body } = await compute("identify", { samples: data, method: "smith" });
     expect(status).toBe(200);
     expect(body.model.type).toBe("fopdt");

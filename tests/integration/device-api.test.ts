@@ -1,5 +1,5 @@
 // The device API over real HTTP against the running app: enrolment, token checks, digest
-// ingest, config pull and acknowledgement (DESIGN.md section 4).
+// ingest, config pull and acknowledgement .
 import { and, eq, sql } from "drizzle-orm";
 import { compactVerify, importJWK, SignJWT, decodeJwt } from "jose";
 import { randomUUID } from "node:crypto";

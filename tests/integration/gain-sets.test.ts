@@ -54,7 +54,7 @@ describe("saving a draft gain set from the bench", () => {
     expect(rows.at(-2)!.gains.kp).toBeCloseTo(inside().kp, 10);
   });
 
-  it("converts standard-form gains exactly (REFERENCES.md conventions: ki = Kc/Ti, kd = Kc·Td)", async () => {
+  it("converts standard-form gains exactly (app/lib/control/REFERENCES.md conventions: ki = Kc/Ti, kd = Kc·Td)", async () => {
     const { kp, ki } = inside();
     const response = await save({ templateId: template.id, gains: { form: "standard", kc: kp, ti: kp / ki, td: 0 } });
     expect(response.status).toBe(200);

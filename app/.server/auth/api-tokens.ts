@@ -1,4 +1,4 @@
-// Organisation API tokens (DESIGN.md section 5): issue, list, revoke, and find by secret.
+// Organisation API tokens for the management API: issue, list, revoke, and find by secret.
 // A token is `fbk_` + 32 random bytes in base64url. Only its SHA-256 is stored, with a short
 // prefix for display; the secret is returned once, by `createApiToken`, and never again.
 import { DomainError } from "~/lib/errors";

@@ -1,4 +1,4 @@
-// The device API's contract (DESIGN.md section 4) as zod schemas: the routes validate with
+// The device API's contract as zod schemas: the routes validate with
 // them and the OpenAPI document at /api/v1/openapi.json is generated from them.
 import { z } from "zod";
 import { MAX_DIGESTS_PER_BATCH } from "./limits";

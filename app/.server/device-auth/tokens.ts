@@ -1,4 +1,4 @@
-// Device authentication (DESIGN.md section 4): a JWT signed with the device's own private
+// Device authentication: a JWT signed with the device's own private
 // key. Header alg on an allow-list (EdDSA, ES256; never none or HS*) and equal to the
 // enrolled key's alg, kid = device id; claims iss = device id, aud = flyball-device, iat and
 // exp at most 5 minutes apart, 60 s of clock skew, a jti that is never accepted twice.

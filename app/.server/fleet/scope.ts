@@ -1,4 +1,4 @@
-// Site scope: site managers see only the sites assigned to them (DESIGN.md section 3).
+// Site scope: site managers see only the sites assigned to them.
 import { and, eq } from "drizzle-orm";
 import type { Membership } from "~/.server/auth/guards";
 import type { Db } from "~/.server/db/client";

@@ -1,4 +1,4 @@
-// Number formatting for the bench (DESIGN.md section 10): gains to 4 significant digits,
+// Number formatting for the bench (DEVELOPERS.md "Conventions"): gains to 4 significant digits,
 // times to 3, shares as whole percent. A value that does not exist shows an en dash.
 
 function significant(value: number, digits: number): string {

@@ -1,4 +1,4 @@
-// Number and time formatting for fleet screens (DESIGN.md section 10: gains to 4 significant
+// Number and time formatting for fleet screens (the product's number style, DEVELOPERS.md "Conventions": gains to 4 significant
 // digits, times to 3, shares as whole percent).
 export function formatSig(value: number | null | undefined, digits = 4): string {
   if (value === null || value === undefined || !Number.isFinite(value)) return "–";

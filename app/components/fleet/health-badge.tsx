@@ -1,6 +1,6 @@
 import type { HealthBand } from "~/lib/health";
 
-// Health is always colour + icon + word (DESIGN.md section 10), with the score beside it.
+// Health is always colour + icon + word (never colour alone), with the score beside it.
 const BANDS: Record<HealthBand, { word: string; icon: string; className: string }> = {
   steady: { word: "steady", icon: "●", className: "border-steady/30 bg-steady/10 text-steady" },
   watch: { word: "watch", icon: "▲", className: "border-watch/40 bg-watch/10 text-watch" },

@@ -25,7 +25,7 @@ export function Notice({ tone, title, children }: { tone: Tone; title?: string; 
   );
 }
 
-/** The caution DESIGN.md section 7 asks for wherever a change reaches a live machine. */
+/** The caution shown wherever a change reaches a live machine (README.md, "Safety"). */
 export function LiveMachineCaution() {
   return (
     <Notice tone="caution" title="These gains will reach running machines">

@@ -1,7 +1,7 @@
 import { describe, expect, it } from "vitest";
 import { can, canAssignRole, canRemoveMember, capabilitiesOf, ROLES } from "./capabilities";
 
-// The role table of DESIGN.md section 3, row by row.
+// The product's role table, row by row.
 describe("can", () => {
   it.each([
     ["billing:manage", ["owner"]],

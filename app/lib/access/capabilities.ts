@@ -1,4 +1,4 @@
-// The one place the role table lives (DESIGN.md section 3). Pure: the UI uses it to hide
+// The one place the role table lives. Pure: the UI uses it to hide
 // what a role cannot do, and every server guard asks the same question.
 
 export const ROLES = ["owner", "admin", "engineer", "site_manager", "viewer"] as const;
@@ -71,7 +71,7 @@ const ROLE_TABLE: Record<Role, readonly Capability[]> = {
   ],
   // Site managers read and triage only within their assigned sites; the server applies the scope.
   site_manager: ["fleet:read", "findings:triage", "retune:request"],
-  // Seeing who is in the team is not in DESIGN.md's table; every OEM-side role may.
+  // Seeing who is in the team: every OEM-side role may (site managers are the OEM's customers).
   // Models and loop templates (default gains, envelopes, thresholds) are the OEM's own: every
   // OEM-side role reads them, site managers do not.
   viewer: ["fleet:read", "registry:read", "team:read"],

@@ -1,7 +1,7 @@
 /**
  * A loop's health from its recent digests: a band (steady, watch, act, silent), a 0–100
  * score and the reasons in words. Saturation share, clamped-integrator share and the error
- * limits have no single published threshold (REFERENCES.md, "Loop health"): they come from
+ * limits have no single published threshold (app/lib/health/REFERENCES.md): they come from
  * the loop template's settings, whose defaults are practice. Oscillation uses Hägglund's
  * rule (1995, memory): more than a set number of load-disturbance detections per time.
  */

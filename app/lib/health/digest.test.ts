@@ -2,7 +2,7 @@ import { describe, expect, it } from "vitest";
 import { assessLoopHealth, createDigestAccumulator, loadDisturbanceLimit } from "./index";
 
 describe("digest accumulator", () => {
-  it("computes the window statistics of DESIGN.md section 4", () => {
+  it("computes the window statistics of the device API's digest", () => {
     const acc = createDigestAccumulator({ samplePeriod: 0.5, acceptableAmplitude: 1, ultimatePeriod: 20 });
     // errors 1, -1, 2, 0 (sp 10, pv 9, 11, 8, 10); u 0, 100, 50, 50
     acc.push(10, 9, 0, false, true, true);

@@ -1,5 +1,5 @@
 /**
- * The digest a device computes for one window of a loop's samples (DESIGN.md section 4).
+ * The digest a device computes for one window of a loop's samples (the Digest of the device API, app/.server/device-api/schemas.ts).
  * Pure and allocation-free per sample, so firmware can mirror it and the fleet simulator
  * uses exactly this code.
  *

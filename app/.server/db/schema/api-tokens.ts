@@ -1,4 +1,4 @@
-// Organisation API tokens for integrators (DESIGN.md section 5). Only the SHA-256 of a token
+// Organisation API tokens for integrators. Only the SHA-256 of a token
 // is kept, with a short display prefix; the secret itself is shown once and never stored.
 import { sql } from "drizzle-orm";
 import { index, pgTable, primaryKey, text, timestamp, uniqueIndex, uuid } from "drizzle-orm/pg-core";

@@ -1,4 +1,4 @@
-// Versioned gain sets for a loop template (DESIGN.md section 2). The tuning bench saves
+// Versioned gain sets for a loop template. The tuning bench saves
 // drafts; the release work moves them through proposed → approved → released.
 import { sql } from "drizzle-orm";
 import { doublePrecision, foreignKey, index, integer, jsonb, pgTable, primaryKey, text, timestamp, uniqueIndex, uuid } from "drizzle-orm/pg-core";
