@@ -1,10 +1,10 @@
 // The device API over real HTTP against the running app: enrolment, token checks, digest
-// ingest, config pull and acknowledgement .
-import { and, eq, sql } from "drizzle-orm";
+// ingest, config pull and acknowledgement.
+import { and, asc, eq, sql } from "drizzle-orm";
 import { compactVerify, importJWK, SignJWT, decodeJwt } from "jose";
 import { randomUUID } from "node:crypto";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { auditEvent, device, digestSeq, loop, machine } from "~/.server/db/schema";
+import { auditEvent, device, deviceJti, digestSeq, loop, machine } from "~/.server/db/schema";
 import { createDeviceIdentity, DeviceClient, sampleDigest } from "../../scripts/simulator/device-client";
 import { createTeam, createTestFleet } from "../factories";
 import { closeDb, db } from "../support/db";
@@ -122,6 +122,22 @@ describe("forged and unusable tokens are refused and write nothing", () => {
     client = await enrolled(3);
   });
 
+  /** All a device call can write: its machine's loops' config and acknowledgement state, digests, last contact, used jtis, audit rows. */
+  async function written() {
+    const machineId = fleet.machines[3].id;
+    return {
+      loops: await db()
+        .select({ key: loop.key, configVersion: loop.configVersion, appliedVersion: loop.appliedVersion, ackStatus: loop.ackStatus, ackReason: loop.ackReason, ackedAt: loop.ackedAt })
+        .from(loop)
+        .where(eq(loop.machineId, machineId))
+        .orderBy(asc(loop.key)),
+      digests: await digestCount(machineId),
+      lastSeenAt: (await db().select({ at: machine.lastSeenAt }).from(machine).where(eq(machine.id, machineId)))[0].at,
+      jtis: await db().select().from(deviceJti).where(eq(deviceJti.deviceId, client.deviceId)).orderBy(asc(deviceJti.jti)),
+      audit: await db().select().from(auditEvent).where(eq(auditEvent.organisationId, team.organisation.id)).orderBy(asc(auditEvent.id)),
+    };
+  }
+
   const b64 = (value: unknown) => Buffer.from(JSON.stringify(value)).toString("base64url");
   const claims = () => {
     const now = Math.floor(Date.now() / 1000);
@@ -156,7 +172,8 @@ describe("forged and unusable tokens are refused and write nothing", () => {
   ];
 
   for (const [name, forge, reason] of cases) {
-    it(`refuses ${name}`, async () => {
+    it(`refuses ${name} on digests, config and ack, and writes nothing`, async () => {
+      const everything = await written();
       const before = await digestCount(fleet.machines[3].id);
       const response = await client.postDigests([sampleDigest("temp", 1000 + Math.floor(Math.random() * 1e6), minutesAgo(5))], await forge());
       expect(response.status).toBe(401);
@@ -164,7 +181,14 @@ describe("forged and unusable tokens are refused and write nothing", () => {
       expect(body.error.code).toBe(reason);
       expect(body.error.message).toBe("The device could not be authenticated.");
       expect(await digestCount(fleet.machines[3].id)).toBe(before);
-      expect((await client.getConfig(undefined, await forge())).status).toBe(401);
+      const config = await client.getConfig(undefined, await forge());
+      expect(config.status).toBe(401);
+      expect((await config.json()).error.code).toBe(reason);
+      // An acknowledgement the machine would accept with a good token (temp is at version 1).
+      const ack = await client.ack({ loop: "temp", version: 1, status: "applied" }, await forge());
+      expect(ack.status).toBe(401);
+      expect((await ack.json()).error.code).toBe(reason);
+      expect(await written()).toEqual(everything);
     });
   }
 
@@ -182,6 +206,28 @@ describe("forged and unusable tokens are refused and write nothing", () => {
     expect(replay.status).toBe(401);
     expect((await replay.json()).error.code).toBe("token_replayed");
     expect(await digestCount(fleet.machines[3].id)).toBe(before + 1);
+  });
+
+  it("refuses a token replayed on ack or config, whichever route used it first, and writes nothing", async () => {
+    const acked = await client.token();
+    expect((await client.ack({ loop: "speed", version: 1, status: "applied" }, acked)).status).toBe(200);
+    const pulled = await client.token();
+    expect((await client.getConfig(undefined, pulled)).status).toBe(200);
+    const posted = await client.token();
+    expect((await client.postDigests([sampleDigest("speed", 3, minutesAgo(2))], posted)).status).toBe(200);
+    const before = await written();
+    expect(before.loops.find((l) => l.key === "speed")).toMatchObject({ ackStatus: "applied", appliedVersion: 1 });
+    const replays: [string, () => Promise<Response>][] = [];
+    for (const [used, token] of [["ack", acked], ["config", pulled], ["digests", posted]] as const) {
+      replays.push([`${used} token on ack`, () => client.ack({ loop: "speed", version: 1, status: "rejected", reason: "replayed" }, token)]);
+      replays.push([`${used} token on config`, () => client.getConfig(undefined, token)]);
+    }
+    for (const [what, send] of replays) {
+      const response = await send();
+      expect(response.status, what).toBe(401);
+      expect((await response.json()).error.code, what).toBe("token_replayed");
+    }
+    expect(await written()).toEqual(before);
   });
 
   it("refuses a revoked device, and a re-enrolled one works again", async () => {
@@ -213,11 +259,34 @@ describe("forged and unusable tokens are refused and write nothing", () => {
     expect(["device_revoked", "machine_decommissioned"]).toContain((await refused.json()).error.code);
   });
 
-  it("checks the token's claims from a well-formed token", () => {
+  it("signs its own tokens with a lifetime the server accepts", () => {
     return client.token().then((t) => {
       const c = decodeJwt(t);
       expect(c.exp! - c.iat!).toBeLessThanOrEqual(300);
     });
+  });
+
+  // MAX_TOKEN_LIFETIME_S is 300: exp - iat = 300 passes, 301 is refused, on every device route.
+  let seq = 600_000;
+  const lifetimeRoutes: [string, (token: string) => Promise<Response>][] = [
+    ["digests", (token) => client.postDigests([sampleDigest("temp", seq++, minutesAgo(1))], token)],
+    ["config", (token) => client.getConfig(undefined, token)],
+    ["ack", (token) => client.ack({ loop: "temp", version: 1, status: "applied" }, token)],
+  ];
+  it.each(lifetimeRoutes)("accepts a token living exactly 300 s on %s and refuses one of 301 s", async (_, send) => {
+    const exact = await client.token({ lifetime: 300 });
+    const c = decodeJwt(exact);
+    expect(c.exp! - c.iat!).toBe(300);
+    expect((await send(exact)).status).toBe(200);
+
+    const tooLong = await client.token({ lifetime: 301 });
+    const t = decodeJwt(tooLong);
+    expect(t.exp! - t.iat!).toBe(301);
+    const before = await written();
+    const refused = await send(tooLong);
+    expect(refused.status).toBe(401);
+    expect((await refused.json()).error.code).toBe("token_lifetime_too_long");
+    expect(await written()).toEqual(before);
   });
 });
 

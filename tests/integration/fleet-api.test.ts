@@ -1,12 +1,12 @@
 // The management API and fleet pages over HTTP: registration, listing, isolation between
 // organisations, site-manager scope, and hostile input.
-import { eq, sql } from "drizzle-orm";
+import { and, asc, eq, ne, sql } from "drizzle-orm";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { machine } from "~/.server/db/schema";
+import { auditEvent, customer, device, enrolmentCode, loop, machine, organisation, site } from "~/.server/db/schema";
 import { createDeviceIdentity, DeviceClient, sampleDigest } from "../../scripts/simulator/device-client";
 import { addMember, assignSite, createTeam, createTestFleet, createUser, uniqueSuffix } from "../factories";
 import { closeDb, db } from "../support/db";
-import { APP_URL, get, postJson, signIn, type Session } from "../support/http";
+import { APP_URL, get, postForm, postJson, signIn, type Session } from "../support/http";
 
 let a: Awaited<ReturnType<typeof createTeam>>;
 let b: Awaited<ReturnType<typeof createTeam>>;
@@ -32,6 +32,18 @@ beforeAll(async () => {
   await client.postDigests([sampleDigest(detail.machine.loops[0].key, 1, new Date(Date.now() - 300_000))]);
 });
 afterAll(closeDb);
+
+/** Everything a machine command could write: the machine, its devices, its enrolment codes, its audit rows. */
+async function machineState(machineId: string) {
+  return {
+    machine: await db().select().from(machine).where(eq(machine.id, machineId)),
+    devices: await db().select().from(device).where(eq(device.machineId, machineId)).orderBy(asc(device.id)),
+    codes: await db().select().from(enrolmentCode).where(eq(enrolmentCode.machineId, machineId)).orderBy(asc(enrolmentCode.id)),
+    audit: await db().select().from(auditEvent).where(eq(auditEvent.targetId, machineId)).orderBy(asc(auditEvent.id)),
+  };
+}
+
+const organisationAudit = (organisationId: string) => db().select().from(auditEvent).where(eq(auditEvent.organisationId, organisationId)).orderBy(asc(auditEvent.id));
 
 describe("registry API", () => {
   it("lists customers, sites and models with their loop templates", async () => {
@@ -130,9 +142,21 @@ describe("registry API", () => {
     expect((await unauth.json()).error.code).toBe("unauthenticated");
     const viewer = await signIn(a.people[2].email);
     expect((await get(`/api/v1/o/${a.organisation.slug}/machines`, viewer)).status).toBe(200);
+    const auditBefore = await organisationAudit(a.organisation.id);
+    // machines[0] has an enrolled device (beforeAll), machines[1] none.
+    const statesBefore = [await machineState(fleetA.machines[0].id), await machineState(fleetA.machines[1].id)];
+    expect(statesBefore[0].devices).toMatchObject([{ status: "active" }]);
     const refused = await postJson(`/api/v1/o/${a.organisation.slug}/machines`, { serial: "V-1", modelId: fleetA.model.id, siteId: fleetA.sites[0].id }, viewer);
     expect(refused.status).toBe(403);
     expect((await postJson(`/api/v1/o/${a.organisation.slug}/machines/${fleetA.machines[1].id}/revoke-device`, {}, viewer)).status).toBe(403);
+    expect((await postJson(`/api/v1/o/${a.organisation.slug}/machines/${fleetA.machines[0].id}/revoke-device`, {}, viewer)).status).toBe(403);
+    // The same through the pages' actions.
+    expect((await postForm(`/o/${a.organisation.slug}/machines/new`, { serial: "V-1", modelId: fleetA.model.id, siteId: fleetA.sites[0].id }, viewer)).status).toBe(403);
+    expect((await postForm(`/o/${a.organisation.slug}/machines/${fleetA.machines[0].id}`, { intent: "revoke-device" }, viewer)).status).toBe(403);
+    // Nothing was written: no machine, no revoked device, no audit row.
+    expect(await db().select().from(machine).where(and(eq(machine.organisationId, a.organisation.id), eq(machine.serial, "V-1")))).toEqual([]);
+    expect([await machineState(fleetA.machines[0].id), await machineState(fleetA.machines[1].id)]).toEqual(statesBefore);
+    expect(await organisationAudit(a.organisation.id)).toEqual(auditBefore);
   });
 });
 
@@ -141,6 +165,8 @@ describe("isolation between organisations", () => {
     const slugA = a.organisation.slug;
     const slugB = b.organisation.slug;
     const idA = fleetA.machines[0].id;
+    const before = await machineState(idA);
+    expect(before.devices).toMatchObject([{ status: "active" }]);
     // B asks A's organisation directly: not a member, 404 like an unknown organisation.
     for (const path of [`/api/v1/o/${slugA}/machines`, `/api/v1/o/${slugA}/machines/${idA}`, `/api/v1/o/${slugA}/customers`, `/api/v1/o/${slugA}/sites`, `/api/v1/o/${slugA}/models`, `/api/v1/o/${slugA}/loops/${loopIdA}/digests`]) {
       expect((await get(path, ownerB)).status, path).toBe(404);
@@ -161,9 +187,25 @@ describe("isolation between organisations", () => {
     expect((await get(`/o/${slugB}/machines/${idA}`, ownerB)).status).toBe(404);
     const page = await (await get(`/o/${slugB}/machines`, ownerB)).text();
     expect(page).not.toContain(fleetA.machines[0].serial);
-    // A's machine stays untouched.
+    // A's machine stays untouched: its device, its codes and its audit trail too.
     const [m] = await db().select().from(machine).where(eq(machine.id, idA));
     expect(m.status).toBe("active");
+    expect(await machineState(idA)).toEqual(before);
+  });
+
+  // The machine page's actions, as B's owner with A's machine id under either slug.
+  const pageCommands = ["enrolment-code", "revoke-device", "decommission"].flatMap((intent) => [
+    { intent, under: "A's slug" as const },
+    { intent, under: "B's slug" as const },
+  ]);
+  it.each(pageCommands)("refuses the page action $intent on A's machine under $under and changes nothing", async ({ intent, under }) => {
+    const idA = fleetA.machines[0].id;
+    const slug = under === "A's slug" ? a.organisation.slug : b.organisation.slug;
+    const before = { a: await machineState(idA), auditB: await organisationAudit(b.organisation.id) };
+    const response = await postForm(`/o/${slug}/machines/${idA}`, { intent }, ownerB);
+    expect(response.status).toBe(404);
+    expect(await response.text()).not.toMatch(/FB-[A-Z0-9]{5}-/);
+    expect({ a: await machineState(idA), auditB: await organisationAudit(b.organisation.id) }).toEqual(before);
   });
 });
 
@@ -186,6 +228,16 @@ describe("site manager scope", () => {
     expect(page).toContain(fleetA.machines[0].serial);
   });
 
+  it("reads the digests of loops at its sites only", async () => {
+    const manager = await signIn(a.people[1].email);
+    const slug = a.organisation.slug;
+    const loopOf = async (machineId: string) => (await db().select({ id: loop.id }).from(loop).where(eq(loop.machineId, machineId)).limit(1))[0]!.id;
+    const elsewhere = await loopOf(fleetA.machines.find((m) => m.siteId === fleetA.sites[1].id)!.id);
+    expect((await get(`/api/v1/o/${slug}/loops/${elsewhere}/digests`, manager)).status).toBe(404);
+    expect((await get(`/api/v1/o/${slug}/loops/${elsewhere}/digests`, ownerA)).status).toBe(200);
+    expect((await get(`/api/v1/o/${slug}/loops/${loopIdA}/digests`, manager)).status).toBe(200);
+  });
+
   it("sees nothing without assignments", async () => {
     const person = await createUser(db(), { email: `sm-${uniqueSuffix()}@test.example`, name: "Unassigned" });
     await addMember(db(), { organisationId: a.organisation.id, userId: person.id, role: "site_manager" });
@@ -206,6 +258,32 @@ describe("demo fleet", () => {
     expect(new Set(halden.items.map((m: { customer: { name: string } }) => m.customer.name))).toEqual(new Set(["Halden Plastics"]));
     const models = await (await get(`/api/v1/o/corvid/models`, await signIn("engineer@corvid.example"))).json();
     expect(models.items[0].loopTemplates.map((t: { key: string }) => t.key)).toEqual(["zone_1", "zone_2", "zone_3", "zone_4", "screw_speed", "melt_pressure"]);
+  });
+
+  it("gives the Halden manager the digests of Halden loops only", async () => {
+    const manager = await signIn("manager@halden.example");
+    const owner = await signIn("owner@corvid.example");
+    /** A loop of a Corvid demo machine whose customer is (or is not) Halden Plastics. */
+    const corvidLoop = async (halden: boolean) => {
+      const [row] = await db()
+        .select({ id: loop.id })
+        .from(loop)
+        .innerJoin(machine, and(eq(machine.organisationId, loop.organisationId), eq(machine.id, loop.machineId)))
+        .innerJoin(site, and(eq(site.organisationId, machine.organisationId), eq(site.id, machine.siteId)))
+        .innerJoin(customer, and(eq(customer.organisationId, site.organisationId), eq(customer.id, site.customerId)))
+        .innerJoin(organisation, eq(organisation.id, loop.organisationId))
+        .where(and(eq(organisation.slug, "corvid"), halden ? eq(customer.name, "Halden Plastics") : ne(customer.name, "Halden Plastics")))
+        .limit(1);
+      return row!.id;
+    };
+    const elsewhere = await corvidLoop(false);
+    const atHalden = await corvidLoop(true);
+    const from = encodeURIComponent(new Date(Date.now() - 86_400_000).toISOString());
+    const refused = await get(`/api/v1/o/corvid/loops/${elsewhere}/digests?from=${from}`, manager);
+    expect(refused.status).toBe(404);
+    expect((await refused.json()).error.code).toBe("not_found");
+    expect((await get(`/api/v1/o/corvid/loops/${elsewhere}/digests?from=${from}`, owner)).status).toBe(200);
+    expect((await get(`/api/v1/o/corvid/loops/${atHalden}/digests?from=${from}`, manager)).status).toBe(200);
   });
 
   it("publishes each organisation's JWKS", async () => {
