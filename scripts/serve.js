@@ -70,6 +70,11 @@ function requestUrl(target) {
     throw new BadRequest("bad request target");
   }
   if (url.origin !== ORIGIN) throw new BadRequest("bad request target");
+  try {
+    decodeURIComponent(url.pathname);
+  } catch {
+    throw new BadRequest("bad percent escape");
+  }
   return url;
 }
 

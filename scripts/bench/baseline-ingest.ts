@@ -6,13 +6,14 @@
 import http from "node:http";
 import { decodeProtectedHeader, importJWK, jwtVerify, type CryptoKey } from "jose";
 import pg from "pg";
+import { DIGEST_FIELDS, digestSqlType } from "~/lib/health/digest-fields";
 
 const port = Number(process.env.BASELINE_PORT ?? 3301);
 const pool = new pg.Pool({ connectionString: process.env.DATABASE_URL, max: Number(process.env.DATABASE_POOL_SIZE ?? 10) });
-const COLS = ["loop_id", "seq", "window_start", "window_end", "samples", "gain_version", "sp_mean", "pv_mean", "err_mean", "err_rms", "err_max_abs", "iae", "ise", "u_mean", "u_std", "sat_high_frac", "sat_low_frac", "int_clamp_frac", "osc_count", "sp_changes"];
-const TYPES = ["uuid", "int4", "timestamptz", "timestamptz", "int4", "int4", "float8", "float8", "float8", "float8", "float8", "float8", "float8", "float8", "float8", "float8", "float8", "float8", "int4", "int4"];
+const COLS = ["loop_id", "seq", "window_start", "window_end", ...DIGEST_FIELDS.map((f) => f.column)];
+const TYPES = ["uuid", "int4", "timestamptz", "timestamptz", ...DIGEST_FIELDS.map((f) => digestSqlType(f))];
 const SQL = `insert into digest (organisation_id, ${COLS.join(", ")}) select $1, * from unnest(${TYPES.map((t, i) => `$${i + 2}::${t}[]`).join(", ")}) on conflict do nothing`;
-const FIELDS = ["loopId", "seq", "windowStart", "windowEnd", "samples", "gainVersion", "spMean", "pvMean", "errMean", "errRms", "errMaxAbs", "iae", "ise", "uMean", "uStd", "satHighFrac", "satLowFrac", "intClampFrac", "oscCount", "spChanges"];
+const FIELDS = ["loopId", "seq", "windowStart", "windowEnd", ...DIGEST_FIELDS.map((f) => f.name)];
 
 const keys = new Map<string, Promise<{ alg: string; key: CryptoKey | Uint8Array }>>();
 function keyOf(kid: string) {

@@ -2,6 +2,7 @@
 // short-lived signed tokens with a fresh jti per call. Used by the fleet simulator, the
 // ingest bench and the integration tests.
 import { randomUUID } from "node:crypto";
+import { exampleDigestFields } from "~/lib/health/digest-fields";
 import { exportJWK, generateKeyPair, importJWK, SignJWT, type CryptoKey, type JWK } from "jose";
 
 export type DeviceAlg = "EdDSA" | "ES256";
@@ -98,22 +99,7 @@ export function sampleDigest(loop: string, seq: number, start: Date, seconds = 6
     seq,
     windowStart: start.toISOString(),
     windowEnd: new Date(start.getTime() + seconds * 1000).toISOString(),
-    samples: seconds,
-    gainVersion: 1,
-    spMean: 220,
-    pvMean: 219.8,
-    errMean: 0.2,
-    errRms: 0.6,
-    errMaxAbs: 1.9,
-    iae: 12,
-    ise: 21.6,
-    uMean: 160,
-    uStd: 4,
-    satHighFrac: 0,
-    satLowFrac: 0,
-    intClampFrac: 0,
-    oscCount: 0,
-    spChanges: 0,
+    ...exampleDigestFields(seconds),
     ...over,
   };
 }

@@ -4,6 +4,7 @@ import { createBatcher } from "~/.server/db/batch";
 import { getIngestPool, getPool } from "~/.server/db/client";
 import { scheduleHealthRefresh } from "~/.server/fleet/health";
 import { deviceUnauthorized, refusalOf, runOncePerToken, TOKEN_CHECK_CTES, type DeviceContext, type TokenStanding, type VerifiedToken } from "~/.server/device-auth/tokens";
+import { DIGEST_FIELDS, digestSqlType } from "~/lib/health/digest-fields";
 import { DigestSchema, type DigestInput } from "./schemas";
 
 export type Rejection = { index: number; code: string; message: string };
@@ -30,11 +31,11 @@ async function loopsOf(ctx: DeviceContext, now: number): Promise<Map<string, str
 const MAX_AGE_MS = 90 * 86_400_000;
 const MAX_FUTURE_MS = 5 * 60_000;
 
-const COLUMNS = [
-  ["loop_id", "uuid"], ["seq", "int4"], ["window_start", "timestamptz"], ["window_end", "timestamptz"], ["samples", "int4"], ["gain_version", "int4"],
-  ["sp_mean", "float8"], ["pv_mean", "float8"], ["err_mean", "float8"], ["err_rms", "float8"], ["err_max_abs", "float8"], ["iae", "float8"], ["ise", "float8"],
-  ["u_mean", "float8"], ["u_std", "float8"], ["sat_high_frac", "float8"], ["sat_low_frac", "float8"], ["int_clamp_frac", "float8"], ["osc_count", "int4"], ["sp_changes", "int4"],
-] as const;
+/** The digest row's columns and their SQL types: the identity, then the measured fields' table. */
+const COLUMNS: readonly (readonly [string, string])[] = [
+  ["loop_id", "uuid"], ["seq", "int4"], ["window_start", "timestamptz"], ["window_end", "timestamptz"],
+  ...DIGEST_FIELDS.map((f) => [f.column, digestSqlType(f)] as const),
+];
 
 // One statement for a whole batch of requests (see ~/.server/db/batch): the device token checks
 // (TOKEN_CHECK_CTES in tokens.ts) and the digests, so that a device's post costs one share of
@@ -116,7 +117,7 @@ async function runIngest(posts: Post[]): Promise<PostOutcome[]> {
     requestColumns[3].push(token.expiresAt.toISOString());
     for (const { loopId, d } of rows) {
       // `with ordinality` numbers the requests from 1.
-      const row = [index + 1, loopId, d.seq, d.windowStart, d.windowEnd, d.samples, d.gainVersion, d.spMean, d.pvMean, d.errMean, d.errRms, d.errMaxAbs, d.iae, d.ise, d.uMean, d.uStd, d.satHighFrac, d.satLowFrac, d.intClampFrac, d.oscCount, d.spChanges];
+      const row = [index + 1, loopId, d.seq, d.windowStart, d.windowEnd, ...DIGEST_FIELDS.map((f) => d[f.name])];
       for (let c = 0; c < row.length; c++) digestColumns[c].push(row[c]);
     }
   });

@@ -1,6 +1,7 @@
 // The device API's contract as zod schemas: the routes validate with
 // them and the OpenAPI document at /api/v1/openapi.json is generated from them.
 import { z } from "zod";
+import { DIGEST_FIELDS, INT32_MAX, type DigestField, type DigestFieldName } from "~/lib/health/digest-fields";
 import { MAX_DIGESTS_PER_BATCH } from "./limits";
 
 export const LOOP_KEY_PATTERN = /^[a-z][a-z0-9_]{0,39}$/;
@@ -44,32 +45,28 @@ export const EnrolResponseSchema = z
   })
   .meta({ id: "EnrolResponse" });
 
-const Fraction = z.number().finite().min(0, "Must be between 0 and 1.").max(1, "Must be between 0 and 1.");
-const Finite = z.number().finite("Must be a finite number.");
-const Count = z.number().int("Must be an integer.").min(0).max(2_147_483_647);
+/** The zod check of one measured field, from its kind and bounds (app/lib/health/digest-fields.ts). */
+function fieldSchema(field: DigestField) {
+  const base =
+    field.kind === "count"
+      ? z.number().int("Must be an integer.").min(field.min ?? 0, `Must be at least ${field.min ?? 0}.`).max(field.max ?? INT32_MAX, `Must be at most ${field.max ?? INT32_MAX}.`)
+      : field.kind === "fraction"
+        ? z.number().finite("Must be a finite number.").min(0, "Must be between 0 and 1.").max(1, "Must be between 0 and 1.")
+        : field.kind === "magnitude"
+          ? z.number().finite("Must be a finite number.").min(0, "Must not be negative.")
+          : z.number().finite("Must be a finite number.");
+  return base.meta({ description: `${field.description} (${field.unit})`, example: field.example });
+}
+
+const measured = Object.fromEntries(DIGEST_FIELDS.map((f) => [f.name, fieldSchema(f)])) as { [K in DigestFieldName]: ReturnType<typeof fieldSchema> };
 
 export const DigestSchema = z
   .object({
     loop: z.string().regex(LOOP_KEY_PATTERN, "Must be a loop key such as zone_1.").meta({ description: "Loop template key.", example: "zone_1" }),
-    seq: z.number().int().min(0).max(2_147_483_647).meta({ description: "Increasing per loop; (loop, seq) makes a retry harmless." }),
+    seq: z.number().int().min(0).max(INT32_MAX).meta({ description: "Increasing per loop; (loop, seq) makes a retry harmless." }),
     windowStart: z.iso.datetime({ offset: true, message: "Must be an ISO 8601 time." }),
     windowEnd: z.iso.datetime({ offset: true, message: "Must be an ISO 8601 time." }),
-    samples: z.number().int().min(1).max(10_000_000),
-    gainVersion: z.number().int().min(0).max(2_147_483_647),
-    spMean: Finite,
-    pvMean: Finite,
-    errMean: Finite,
-    errRms: Finite.min(0),
-    errMaxAbs: Finite.min(0),
-    iae: Finite.min(0),
-    ise: Finite.min(0),
-    uMean: Finite,
-    uStd: Finite.min(0),
-    satHighFrac: Fraction,
-    satLowFrac: Fraction,
-    intClampFrac: Fraction.meta({ description: "Share of samples with the integrator held at a limit." }),
-    oscCount: Count.meta({ description: "Load-disturbance detections (Hägglund's IAE between zero crossings)." }),
-    spChanges: Count,
+    ...measured,
   })
   .meta({ id: "Digest" });
 export type DigestInput = z.infer<typeof DigestSchema>;

@@ -1,7 +1,8 @@
 // Reading a loop's digests for trends: raw windows, or time buckets for long ranges.
 import { DomainError } from "~/lib/errors";
 import { and, eq } from "drizzle-orm";
-import { sql } from "drizzle-orm";
+import { sql, type SQL } from "drizzle-orm";
+import { DIGEST_FIELDS, type DigestField } from "~/lib/health/digest-fields";
 import { z } from "zod";
 import type { Db } from "~/.server/db/client";
 import { loop, machine } from "~/.server/db/schema";
@@ -27,11 +28,25 @@ export type DigestRangeQuery = z.infer<typeof DigestRangeQuerySchema>;
 
 type DigestRow = Record<string, unknown> & { window_start: Date | string; window_end: Date | string };
 
-const NUMERIC = ["samples", "gain_version", "sp_mean", "pv_mean", "err_mean", "err_rms", "err_max_abs", "iae", "ise", "u_mean", "u_std", "sat_high_frac", "sat_low_frac", "int_clamp_frac", "osc_count", "sp_changes"] as const;
-const CAMEL: Record<string, string> = {
-  samples: "samples", gain_version: "gainVersion", sp_mean: "spMean", pv_mean: "pvMean", err_mean: "errMean", err_rms: "errRms", err_max_abs: "errMaxAbs",
-  iae: "iae", ise: "ise", u_mean: "uMean", u_std: "uStd", sat_high_frac: "satHighFrac", sat_low_frac: "satLowFrac", int_clamp_frac: "intClampFrac", osc_count: "oscCount", sp_changes: "spChanges",
-};
+/** How a bucket combines its windows' values of a field (sample-weighted where it is a mean). */
+function bucketed(field: DigestField): SQL {
+  const column = sql.raw(`d.${field.column}`);
+  const w = sql`d.samples::float8`;
+  const cast = field.kind === "count" ? sql.raw("::int") : sql.raw("");
+  switch (field.merge) {
+    case "sum":
+      return sql`sum(${column})${cast}`;
+    case "max":
+      return sql`max(${column})`;
+    case "mean":
+      return sql`sum(${column} * ${w}) / nullif(sum(${w}), 0)`;
+    case "rms":
+      return sql`sqrt(sum(${column} ^ 2 * ${w}) / nullif(sum(${w}), 0))`;
+  }
+}
+
+const RAW_COLUMNS = sql.raw(DIGEST_FIELDS.map((f) => `d.${f.column}`).join(", "));
+const BUCKET_COLUMNS = sql.join(DIGEST_FIELDS.map((f) => sql`${bucketed(f)} as ${sql.raw(f.column)}`), sql`, `);
 
 function mapRow(row: DigestRow) {
   const out: Record<string, unknown> = {
@@ -39,7 +54,7 @@ function mapRow(row: DigestRow) {
     windowEnd: new Date(row.window_end).toISOString(),
   };
   if (row.seq !== undefined && row.seq !== null) out.seq = Number(row.seq);
-  for (const key of NUMERIC) out[CAMEL[key]] = row[key] === null ? null : Number(row[key]);
+  for (const field of DIGEST_FIELDS) out[field.name] = row[field.column] === null ? null : Number(row[field.column]);
   return out;
 }
 
@@ -55,25 +70,17 @@ export async function listLoopDigests(db: Db, scope: SiteScope, { loopId, query 
     and d.window_start >= ${query.from.toISOString()}::timestamptz and d.window_start < ${query.to.toISOString()}::timestamptz`;
   const offset = (query.page - 1) * query.pageSize;
   if (query.bucket) {
-    // Sample-weighted means per bucket; extremes and counts combine as max and sum.
-    const w = sql`d.samples::float8`;
+    // Means weighted by samples, extremes as max, integrals and counts as sums (DIGEST_FIELDS' merge).
     const result = await db.execute<DigestRow & { total: number }>(sql`
       select date_bin(make_interval(secs => ${query.bucket}), d.window_start, '2000-01-01'::timestamptz) as window_start,
-        max(d.window_end) as window_end, sum(d.samples)::int as samples, max(d.gain_version) as gain_version,
-        sum(d.sp_mean * ${w}) / nullif(sum(${w}), 0) as sp_mean, sum(d.pv_mean * ${w}) / nullif(sum(${w}), 0) as pv_mean,
-        sum(d.err_mean * ${w}) / nullif(sum(${w}), 0) as err_mean, sqrt(sum(d.err_rms ^ 2 * ${w}) / nullif(sum(${w}), 0)) as err_rms,
-        max(d.err_max_abs) as err_max_abs, sum(d.iae) as iae, sum(d.ise) as ise,
-        sum(d.u_mean * ${w}) / nullif(sum(${w}), 0) as u_mean, sqrt(sum(d.u_std ^ 2 * ${w}) / nullif(sum(${w}), 0)) as u_std,
-        sum(d.sat_high_frac * ${w}) / nullif(sum(${w}), 0) as sat_high_frac, sum(d.sat_low_frac * ${w}) / nullif(sum(${w}), 0) as sat_low_frac,
-        sum(d.int_clamp_frac * ${w}) / nullif(sum(${w}), 0) as int_clamp_frac, sum(d.osc_count)::int as osc_count, sum(d.sp_changes)::int as sp_changes,
+        max(d.window_end) as window_end, ${BUCKET_COLUMNS},
         count(*) over ()::int as total
       from digest d where ${range}
       group by 1 order by 1 limit ${query.pageSize} offset ${offset}`);
     return { items: result.rows.map(mapRow), total: Number(result.rows[0]?.total ?? 0), page: query.page, pageSize: query.pageSize, bucket: query.bucket };
   }
   const result = await db.execute<DigestRow & { total: number }>(sql`
-    select d.seq, d.window_start, d.window_end, d.samples, d.gain_version, d.sp_mean, d.pv_mean, d.err_mean, d.err_rms, d.err_max_abs,
-      d.iae, d.ise, d.u_mean, d.u_std, d.sat_high_frac, d.sat_low_frac, d.int_clamp_frac, d.osc_count, d.sp_changes,
+    select d.seq, d.window_start, d.window_end, ${RAW_COLUMNS},
       count(*) over ()::int as total
     from digest d where ${range}
     order by d.window_start, d.seq limit ${query.pageSize} offset ${offset}`);

@@ -9,3 +9,4 @@ export {
   type HealthBand,
   type HealthThresholdSettings,
 } from "./assess";
+export { DIGEST_FIELDS, digestSqlType, exampleDigestFields, INT32_MAX, type DigestField, type DigestFieldName } from "./digest-fields";

@@ -11,6 +11,7 @@ import { ApiTokensPanel, type ApiTokenActionResult } from "~/components/develope
 import { PageHeader } from "~/components/org-shell";
 import { can } from "~/lib/access/capabilities";
 import { parseForm } from "~/lib/forms";
+import { exampleDigestFields } from "~/lib/health/digest-fields";
 import type { Route } from "./+types/developer";
 
 export async function loader({ request, params }: Route.LoaderArgs) {
@@ -81,7 +82,7 @@ const token = await new SignJWT({})
   const curl = `curl -sS ${baseUrl}/api/v1/device/digests \\
   -H "Authorization: Bearer $TOKEN" \\
   -H "Content-Type: application/json" \\
-  -d '{"digests":[{"loop":"zone_1","seq":1042,"windowStart":"2026-03-02T10:00:00Z","windowEnd":"2026-03-02T10:01:00Z","samples":60,"gainVersion":1,"spMean":220,"pvMean":219.7,"errMean":0.3,"errRms":0.8,"errMaxAbs":2.1,"iae":26.4,"ise":38.4,"uMean":161.5,"uStd":3.9,"satHighFrac":0,"satLowFrac":0,"intClampFrac":0,"oscCount":0,"spChanges":0}]}'
+  -d '${JSON.stringify({ digests: [{ loop: "zone_1", seq: 1042, windowStart: "2026-03-02T10:00:00Z", windowEnd: "2026-03-02T10:01:00Z", ...exampleDigestFields(60) }] })}'
 # → {"accepted":1,"duplicates":0,"rejected":[]}`;
   return (
     <>

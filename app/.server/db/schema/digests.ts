@@ -4,7 +4,14 @@
 // Idempotency on (loop, seq) across partitions is enforced by digest_seq, which is not
 // partitioned: a unique key on a partitioned table must include the partition column.
 import { doublePrecision, foreignKey, integer, pgTable, primaryKey, text, timestamp, uuid } from "drizzle-orm/pg-core";
+import { DIGEST_FIELDS, type DigestFieldName } from "~/lib/health/digest-fields";
 import { loop } from "./fleet";
+
+/** The measured fields' columns, from the one table of digest fields (integers and doubles both read as numbers). */
+function measuredColumns() {
+  const column = (f: (typeof DIGEST_FIELDS)[number]) => (f.kind === "count" ? integer(f.column).notNull() : doublePrecision(f.column).notNull());
+  return Object.fromEntries(DIGEST_FIELDS.map((f) => [f.name, column(f)])) as Record<DigestFieldName, ReturnType<typeof column>>;
+}
 
 export const digest = pgTable(
   "digest",
@@ -15,22 +22,7 @@ export const digest = pgTable(
     seq: integer("seq").notNull(),
     windowEnd: timestamp("window_end", { withTimezone: true }).notNull(),
     receivedAt: timestamp("received_at", { withTimezone: true }).notNull().defaultNow(),
-    samples: integer("samples").notNull(),
-    gainVersion: integer("gain_version").notNull(),
-    spMean: doublePrecision("sp_mean").notNull(),
-    pvMean: doublePrecision("pv_mean").notNull(),
-    errMean: doublePrecision("err_mean").notNull(),
-    errRms: doublePrecision("err_rms").notNull(),
-    errMaxAbs: doublePrecision("err_max_abs").notNull(),
-    iae: doublePrecision("iae").notNull(),
-    ise: doublePrecision("ise").notNull(),
-    uMean: doublePrecision("u_mean").notNull(),
-    uStd: doublePrecision("u_std").notNull(),
-    satHighFrac: doublePrecision("sat_high_frac").notNull(),
-    satLowFrac: doublePrecision("sat_low_frac").notNull(),
-    intClampFrac: doublePrecision("int_clamp_frac").notNull(),
-    oscCount: integer("osc_count").notNull(),
-    spChanges: integer("sp_changes").notNull(),
+    ...measuredColumns(),
   },
   (t) => [
     primaryKey({ name: "digest_pk", columns: [t.organisationId, t.loopId, t.windowStart, t.seq] }),
