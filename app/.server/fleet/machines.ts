@@ -10,6 +10,7 @@ import { customer, device, enrolmentCode, loop, loopTemplate, machine, machineMo
 import { MACHINE_STATUSES, type MachineListQuery, type MachineSort, type RegisterMachineInput } from "~/lib/fleet/schemas";
 import type { HealthBand } from "~/lib/health";
 import { issueEnrolmentCode } from "./enrolment-codes";
+import { templateDescriptionColumns } from "./registry";
 import { inScope, type SiteScope } from "./scope";
 
 // Band of each loop: silent when its last digest is older than the template's limit.
@@ -144,13 +145,7 @@ export async function getMachine(db: Db, scope: SiteScope, machineId: string) {
     .select({
       id: loop.id,
       key: loop.key,
-      name: loopTemplate.name,
-      unit: loopTemplate.unit,
-      outputUnit: loopTemplate.outputUnit,
-      samplePeriodS: loopTemplate.samplePeriodS,
-      controllerForm: loopTemplate.controllerForm,
-      outputMin: loopTemplate.outputMin,
-      outputMax: loopTemplate.outputMax,
+      ...templateDescriptionColumns,
       thresholds: loopTemplate.thresholds,
       gains: loop.gains,
       configVersion: loop.configVersion,

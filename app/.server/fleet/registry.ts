@@ -88,10 +88,8 @@ export async function addSite(db: Db, { organisationId, actor, input }: { organi
   return row;
 }
 
-const templateColumns = {
-  id: loopTemplate.id,
-  modelId: loopTemplate.modelId,
-  key: loopTemplate.key,
+/** What a loop shows of its template wherever it is listed (models here, a machine's loops in machines.ts). */
+export const templateDescriptionColumns = {
   name: loopTemplate.name,
   unit: loopTemplate.unit,
   outputUnit: loopTemplate.outputUnit,
@@ -99,6 +97,13 @@ const templateColumns = {
   controllerForm: loopTemplate.controllerForm,
   outputMin: loopTemplate.outputMin,
   outputMax: loopTemplate.outputMax,
+};
+
+const templateColumns = {
+  id: loopTemplate.id,
+  modelId: loopTemplate.modelId,
+  key: loopTemplate.key,
+  ...templateDescriptionColumns,
   defaultGains: loopTemplate.defaultGains,
   gainEnvelope: loopTemplate.gainEnvelope,
   thresholds: loopTemplate.thresholds,
