@@ -6,7 +6,7 @@
 // - /api/v1/device/* goes to the lean path (app/.server/http/lean-path.ts, reached through the
 //   build): straight to the route module, its body read only when the route asks for it and
 //   never past the route's own limit;
-// - files under build/client are served from disk;
+// - files under build/client are served from disk (serve-static);
 // - everything else goes to React Router's request handler.
 // A bad request line, header or URL gets 400; an error inside one request answers 500 for that
 // request and never ends the process. Security headers go on every answer.
@@ -15,12 +15,12 @@
 //
 // Plain JavaScript on purpose: it runs with node alone (tsx's loader stalls importing the
 // server build).
-import { createReadStream, statSync } from "node:fs";
 import http from "node:http";
 import { isIP } from "node:net";
 import path from "node:path";
 import { pathToFileURL } from "node:url";
 import { createRequestHandler } from "react-router";
+import serveStatic from "serve-static";
 
 const buildPath = path.resolve(process.argv[2] ?? `${process.env.FLYBALL_BUILD_DIR ?? "build"}/server/index.js`);
 const clientDir = path.resolve(path.dirname(buildPath), "../client");
@@ -193,51 +193,31 @@ async function sendResponse(req, res, response) {
 const jsonError = (status, code, message) =>
   new Response(JSON.stringify({ error: { code, message } }), { status, headers: { "content-type": "application/json; charset=utf-8", "cache-control": "no-store" } });
 
-/** @type {Record<string, string>} */
-const MIME = {
-  ".js": "text/javascript; charset=utf-8",
-  ".css": "text/css; charset=utf-8",
-  ".svg": "image/svg+xml",
-  ".png": "image/png",
-  ".ico": "image/x-icon",
-  ".woff2": "font/woff2",
-  ".woff": "font/woff",
-  ".json": "application/json",
-  ".txt": "text/plain; charset=utf-8",
-  ".map": "application/json",
-};
+// Files under build/client, through serve-static (GET and HEAD only; anything it does not find
+// falls through to the app). Hashed /assets/ files are cached for a year.
+const assetsDir = path.join(clientDir, "assets") + path.sep;
+const staticFiles = serveStatic(clientDir, {
+  index: false,
+  redirect: false,
+  dotfiles: "ignore",
+  maxAge: "1h",
+  setHeaders(res, filePath) {
+    for (const [name, value] of Object.entries(SECURITY_HEADERS)) res.setHeader(name, value);
+    res.setHeader("content-security-policy", DEFAULT_CSP);
+    if (filePath.startsWith(assetsDir)) res.setHeader("cache-control", "public, max-age=31536000, immutable");
+  },
+});
 
-/** A file under build/client, or false. Hashed /assets/ files are cached for a year. */
-function serveStatic(req, res, url) {
-  if (req.method !== "GET" && req.method !== "HEAD") return false;
-  let pathname;
-  try {
-    pathname = decodeURIComponent(url.pathname);
-  } catch {
-    return false;
-  }
-  if (pathname.endsWith("/") || pathname.includes("\0")) return false;
-  const file = path.join(clientDir, pathname);
-  if (!file.startsWith(clientDir + path.sep)) return false;
-  let size;
-  try {
-    const stat = statSync(file);
-    if (!stat.isFile()) return false;
-    size = stat.size;
-  } catch {
-    return false;
-  }
-  const immutable = pathname.startsWith("/assets/");
-  res.writeHead(200, {
-    ...SECURITY_HEADERS,
-    "content-security-policy": DEFAULT_CSP,
-    "content-type": MIME[path.extname(file)] ?? "application/octet-stream",
-    "content-length": size,
-    "cache-control": immutable ? "public, max-age=31536000, immutable" : "public, max-age=3600",
+/** Whether the request was answered from build/client. @param {import("node:http").IncomingMessage} req @param {import("node:http").ServerResponse} res */
+function serveFile(req, res) {
+  return new Promise((resolve) => {
+    const answered = () => resolve(true);
+    res.once("close", answered);
+    staticFiles(req, res, () => {
+      res.off("close", answered);
+      resolve(false);
+    });
   });
-  if (req.method === "HEAD") res.end();
-  else createReadStream(file).on("error", () => res.destroy()).pipe(res);
-  return true;
 }
 
 /** @param {import("node:http").IncomingMessage} req @param {import("node:http").ServerResponse} res */
@@ -250,7 +230,7 @@ async function serve(req, res) {
   } catch {
     return sendResponse(req, res, jsonError(400, "bad_request", "The request target is not valid."));
   }
-  if (!lean.paths.includes(url.pathname) && serveStatic(req, res, url)) return;
+  if (!lean.paths.includes(url.pathname) && (req.method === "GET" || req.method === "HEAD") && (await serveFile(req, res))) return;
   const controller = new AbortController();
   res.on("close", () => controller.abort());
   let headers;
