@@ -237,9 +237,9 @@ class FirstOrderPlantSimulator implements PlantSimulator {
   private readonly m: number;
   private head = 0;
 
-  constructor(discrete: DiscretePlant, input: number) {
+  constructor(discrete: DiscretePlant, input: number, horizon: number) {
     this.discrete = discrete;
-    this.m = discrete.delaySamples;
+    this.m = Math.min(discrete.delaySamples, horizon);
     this.length = this.m + 2;
     this.history = new Float64Array(this.length);
     this.k[1] = discrete.phi[0];
@@ -289,12 +289,12 @@ class DiscretePlantSimulator implements PlantSimulator {
   private readonly m: number;
   private head = 0;
 
-  constructor(discrete: DiscretePlant, input: number) {
+  constructor(discrete: DiscretePlant, input: number, horizon: number) {
     this.discrete = discrete;
     this.n = discrete.order;
     this.x = new Float64Array(this.n);
     this.xNext = new Float64Array(this.n);
-    this.m = discrete.delaySamples;
+    this.m = Math.min(discrete.delaySamples, horizon);
     this.length = this.m + 2;
     this.history = new Float64Array(this.length);
     this.reset(input);
@@ -340,11 +340,17 @@ class DiscretePlantSimulator implements PlantSimulator {
   }
 }
 
-/** A plant simulator at rest, its delay line filled with `initialInput` (default 0). */
-export function createPlantSimulator(discrete: DiscretePlant, initialInput = 0): PlantSimulator {
+/**
+ * A plant simulator at rest, its delay line filled with `initialInput` (default 0). Give
+ * `horizon`, the number of samples it will run, when it is known: a dead time longer than
+ * that only ever delivers the initial input, so the delay line is not made longer (θ/h may
+ * be 10⁹, which would otherwise allocate gigabytes).
+ */
+export function createPlantSimulator(discrete: DiscretePlant, initialInput = 0, horizon = Infinity): PlantSimulator {
+  if (!(horizon >= 0)) throw new ControlInputError("horizon", "must be a number of samples");
   return discrete.order === 1
-    ? new FirstOrderPlantSimulator(discrete, initialInput)
-    : new DiscretePlantSimulator(discrete, initialInput);
+    ? new FirstOrderPlantSimulator(discrete, initialInput, horizon)
+    : new DiscretePlantSimulator(discrete, initialInput, horizon);
 }
 
 /** P(jω) of the continuous plant including e^{−jωθ}. */
