@@ -25,7 +25,7 @@ export async function requireComputeCaller(request: Request): Promise<Response |
 
 export function computeFailure(error: unknown): Response {
   if (error instanceof ControlInputError) {
-    return apiError(400, "invalid_input", `${error.field}: ${error.message.replace(/^[^:]*:\s*/, "")}`, [{ path: error.field.split("."), message: error.message }]);
+    return apiError(400, error.code, `${error.field}: ${error.message.replace(/^[^:]*:\s*/, "")}`, [{ path: error.field.split("."), message: error.message }]);
   }
   const message = error instanceof Error ? error.message : String(error);
   return apiError(422, "computation_failed", `The computation could not be completed: ${message}`);

@@ -1,14 +1,17 @@
 /**
  * The one error type the control engine throws for bad input. `field` names the offending
  * input (a dotted path such as `plant.timeConstant`) so a form can put the message beside it.
+ * `code` is "too_large" when the input is valid but would take more work than allowed.
  */
 export class ControlInputError extends Error {
   readonly field: string;
+  readonly code: "invalid_input" | "too_large";
 
-  constructor(field: string, message: string) {
+  constructor(field: string, message: string, code: "invalid_input" | "too_large" = "invalid_input") {
     super(`${field}: ${message}`);
     this.name = "ControlInputError";
     this.field = field;
+    this.code = code;
   }
 }
 

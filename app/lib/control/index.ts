@@ -73,6 +73,7 @@ export {
   type StabilityMargins,
   type UltimatePoint,
 } from "./frequency";
+export { assessClosedLoopStability, type StabilityLoop, type StabilityVerdict } from "./stability";
 export {
   CONTROLLER_TYPES,
   TUNING_RULES,
