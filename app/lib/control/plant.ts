@@ -219,6 +219,12 @@ export interface PlantSimulator {
   advance(u: number): void;
   /** Back to rest with the delay line full of `input` (default 0). */
   reset(input?: number): void;
+  /**
+   * Go on with new coefficients (an aged or re-identified plant) without a jump: the output
+   * and the inputs in the delay line are kept. First-order plants only (their state is
+   * rescaled so y is unchanged); the sample period and whole samples of delay must match.
+   */
+  changeModel(discrete: DiscretePlant): void;
   readonly discrete: DiscretePlant;
 }
 
@@ -230,7 +236,7 @@ export interface PlantSimulator {
  * millions of times, and small methods are what the JIT inlines into the caller's loop.
  */
 class FirstOrderPlantSimulator implements PlantSimulator {
-  readonly discrete: DiscretePlant;
+  discrete: DiscretePlant;
   private readonly k = new Float64Array(6);
   private readonly history: Float64Array;
   private readonly length: number;
@@ -255,6 +261,20 @@ class FirstOrderPlantSimulator implements PlantSimulator {
     this.k[0] = 0;
     this.history.fill(input);
     this.head = 0;
+  }
+
+  changeModel(discrete: DiscretePlant): void {
+    checkSameShape(this.discrete, discrete);
+    const k = this.k;
+    // y = C·x + D·u_old: keep C·x (the part that is the state) across the change.
+    const cx = k[4] * k[0];
+    k[1] = discrete.phi[0];
+    k[2] = discrete.gammaEarly[0];
+    k[3] = discrete.gammaLate[0];
+    k[4] = discrete.c[0];
+    k[5] = discrete.d;
+    k[0] = k[4] === 0 ? 0 : cx / k[4];
+    this.discrete = discrete;
   }
 
   output(): number {
@@ -307,6 +327,11 @@ class DiscretePlantSimulator implements PlantSimulator {
     this.head = 0;
   }
 
+  changeModel(): void {
+    // A higher-order state in canonical form has no physical meaning to carry across.
+    throw new ControlInputError("plant", "only a first-order plant can change its model while running");
+  }
+
   output(): number {
     let idx = this.head - this.m - 1;
     if (idx < 0) idx += this.length;
@@ -338,6 +363,12 @@ class DiscretePlantSimulator implements PlantSimulator {
     }
     x.set(next);
   }
+}
+
+function checkSameShape(current: DiscretePlant, next: DiscretePlant): void {
+  if (next.order !== current.order) throw new ControlInputError("plant", "must keep its order");
+  if (next.samplePeriod !== current.samplePeriod) throw new ControlInputError("samplePeriod", "must not change");
+  if (next.delaySamples !== current.delaySamples) throw new ControlInputError("plant.deadTime", "must keep its whole samples of delay");
 }
 
 /**
