@@ -3,6 +3,7 @@ import { describe, expect, it } from "vitest";
 import { ControlInputError } from "~/lib/control";
 import { MAX_WORK_UNITS, simulationWork } from "./limits";
 import { answerMargins, answerSimulate } from "./run";
+import { ControllerSchema } from "./schemas";
 
 describe("margins answer a stability verdict (issue 8, defect 3)", () => {
   // Expected values: app/lib/control/REFERENCES.md "Closed-loop stability" (derived).
@@ -72,5 +73,15 @@ describe("work limits (issue 8, defect 5)", () => {
     // Input from the issue: θ/h = 1e9, which the schema allows.
     const run = () => answerMargins({ plant: { type: "sopdt", gain: 1, timeConstants: [1, 2], deadTime: 1e7 }, controller: { form: "parallel", kp: 1, ki: 0, kd: 0 }, samplePeriod: 0.01 });
     expect(tooLarge(run)).toBe("too_large");
+  });
+});
+
+describe("parallel gains follow the sign convention (issue 8, defect 9)", () => {
+  it("accepts a reverse-acting parallel controller and refuses mixed signs", () => {
+    // Derived: Kc = −2, Ti = 4, Td = 0.5 in parallel form is kp −2, ki −0.5, kd −1.
+    expect(ControllerSchema.safeParse({ form: "parallel", kp: -2, ki: -0.5, kd: -1 }).success).toBe(true);
+    const mixed = ControllerSchema.safeParse({ form: "parallel", kp: -2, ki: 0.5, kd: 0 });
+    expect(mixed.success).toBe(false);
+    expect(mixed.error?.issues[0].path).toEqual(["ki"]);
   });
 });

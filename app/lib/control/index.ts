@@ -6,6 +6,7 @@ export {
   describeGainForms,
   parallelToStandard,
   seriesToStandard,
+  checkGainSigns,
   standardToParallel,
   standardToSeries,
   toParallelGains,
