@@ -180,12 +180,13 @@ describe("POST /api/v1/compute/simulate and step-info", () => {
   });
 
   it("flags a diverging run with the time it left the finite numbers", async () => {
-    // FOPDT (1, 1, 1), PI kp=5, ki=1, h=0.01, 2000 s: u is first non-finite at 1100.60 s (derived by simulation).
+    // FOPDT (1, 1, 1), PI kp=5, ki=1, h=0.01 (1500 s: the 2000 s is past the 200 000-sample
+    // limit): u is first non-finite at 1100.60 s (derived by simulation, app/lib/control/simulate.test.ts).
     const { status, body } = await compute("simulate", {
       plant: { type: "fopdt", gain: 1, timeConstant: 1, deadTime: 1 },
       controller: { form: "parallel", kp: 5, ki: 1, kd: 0 },
       samplePeriod: 0.01,
-      duration: 2000,
+      duration: 1500,
     });
     expect(status).toBe(200);
     expect(body.diverged).toBe(true);
@@ -195,7 +196,7 @@ describe("POST /api/v1/compute/simulate and step-info", () => {
 
   it("answers 400 too_large for work past about a second, and a huge dead time runs in little memory", async () => {
     const order20 = { type: "tf", numerator: [1], denominator: [1, ...new Array(19).fill(0), 1] };
-    const big = await compute("simulate", { plant: order20, controller: { form: "parallel", kp: 0.01, ki: 0, kd: 0 }, samplePeriod: 0.01, duration: 2000 });
+    const big = await compute("simulate", { plant: order20, controller: { form: "parallel", kp: 0.01, ki: 0, kd: 0 }, samplePeriod: 0.01, duration: 1999 });
     expect(big.status).toBe(400);
     expect(big.body.error.code).toBe("too_large");
     const margins = await compute("margins", { plant: { type: "sopdt", gain: 1, timeConstants: [1, 2], deadTime: 1e7 }, controller: { form: "parallel", kp: 1, ki: 0, kd: 0 }, samplePeriod: 0.01 });

@@ -85,3 +85,11 @@ describe("parallel gains follow the sign convention (issue 8, defect 9)", () => 
     expect(mixed.error?.issues[0].path).toEqual(["ki"]);
   });
 });
+
+describe("hostile values get a clear 400, not a hang", () => {
+  it("refuses coefficients that overflow the stability check", () => {
+    // 1e308/1e-308 overflows to Infinity once the denominator is made monic.
+    expect(() => answerMargins({ plant: { type: "tf", numerator: [1e308], denominator: [1e-308, 1] }, controller: { form: "parallel", kp: 1, ki: 0.1, kd: 0 } })).toThrow(ControlInputError);
+    expect(() => answerMargins({ plant: { type: "fopdt", gain: 1, timeConstant: 1e-300, deadTime: 1 }, controller: { form: "parallel", kp: 1, ki: 0.1, kd: 0 } })).toThrow(ControlInputError);
+  });
+});

@@ -210,8 +210,9 @@ function bisectFrequency(f: (w: number) => number, lo: number, hi: number): numb
 }
 
 export function computeMargins(loop: LoopSpec): StabilityMargins {
-  const margins = sweepMargins(loop);
+  // The verdict first: it refuses what it cannot judge before the longer frequency sweep.
   const { stable } = assessClosedLoopStability(loop);
+  const margins = sweepMargins(loop);
   return {
     ...margins,
     stable,

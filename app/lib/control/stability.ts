@@ -147,7 +147,8 @@ function sweepArgument(f: (x: number) => Complex, grid: readonly number[], toler
   };
   const segment = (a: number, b: number, argA: number, argB: number, depth: number): number => {
     const d = wrap(argB - argA);
-    if (Math.abs(d) <= Math.PI / 4 || depth > 40 || b - a <= 1e-15 * Math.max(1, Math.abs(a))) return d;
+    // A phase that is not a number (overflow) is not subdivided: the caller refuses it.
+    if (!(Math.abs(d) > Math.PI / 4) || depth > 40 || b - a <= 1e-15 * Math.max(1, Math.abs(a))) return d;
     const mid = 0.5 * (a + b);
     const argMid = argAt(mid);
     return segment(a, mid, argA, argMid, depth + 1) + segment(mid, b, argMid, argB, depth + 1);
@@ -181,6 +182,7 @@ function sampledVerdict(loop: StabilityLoop & { samplePeriod: number }): Stabili
   const { nc, dc } = controllerPolynomials(loop);
   const q = multiplyPolynomials(a, dc);
   const r = multiplyPolynomials(nc, b);
+  requireFinitePolynomials(q, r);
   const degree = delay + q.length - 1;
   // Four points per unit of degree: z^(m+1) turns by at most π/4 per step.
   const points = 4 * (degree + 8);
@@ -215,9 +217,11 @@ function continuousVerdict(loop: StabilityLoop): StabilityVerdict {
   const { nc, dc } = controllerPolynomials(loop);
   const d = multiplyPolynomials(dc, tf.denominator);
   const n = multiplyPolynomials(nc, tf.numerator);
+  requireFinitePolynomials(d, n);
   if (tf.deadTime === 0) {
     const p = addPolynomials(d, n);
     const roots = findPolynomialRoots(p);
+    requireFinitePolynomials(roots.flatMap((z) => [z.re, z.im]));
     const size = Math.max(1, ...roots.map((z) => Math.hypot(z.re, z.im)));
     const unstablePoles = roots.filter((z) => z.re >= -1e-9 * size).length;
     // A polynomial whose leading terms cancel (L(∞) = −1) has lost degree: roots at infinity.
@@ -232,6 +236,7 @@ function continuousVerdict(loop: StabilityLoop): StabilityVerdict {
   const lInf = degreeN === degreeD ? Math.abs(n[leadingZeros(n)] / d[0]) : degreeN > degreeD ? Infinity : 0;
   if (lInf >= 1) return { stable: false, unstablePoles: Infinity };
   const rootsD = findPolynomialRoots(d);
+  requireFinitePolynomials(rootsD.flatMap((z) => [z.re, z.im]));
   const magnitude = (w: number) => {
     const nv = evaluateAt(n, 0, w);
     const dv = evaluateAt(d, 0, w);
@@ -257,7 +262,7 @@ function continuousVerdict(loop: StabilityLoop): StabilityVerdict {
   // Grid on [0, ω*]: logarithmic, and linear enough that θ·Δω ≤ π/8.
   const linear = Math.PI / 8 / theta;
   const points = omegaStar / linear;
-  if (points > MAX_SWEEP_POINTS) {
+  if (!(points <= MAX_SWEEP_POINTS)) {
     throw new ControlInputError("plant.deadTime", "is too long for this loop's bandwidth: checking its stability would take too long", "too_large");
   }
   const grid = [0];
@@ -302,8 +307,15 @@ function leadingZeros(p: readonly number[]): number {
   return i;
 }
 
+function requireFinitePolynomials(...polynomials: (readonly number[])[]): void {
+  for (const p of polynomials) {
+    if (!p.every(Number.isFinite)) throw new ControlInputError("plant", "has coefficients too large or too small to check the loop's stability");
+  }
+}
+
 /** Is the closed loop stable? From its poles (see the file header). */
 export function assessClosedLoopStability(loop: StabilityLoop): StabilityVerdict {
-  if (loop.samplePeriod !== undefined) return sampledVerdict({ ...loop, samplePeriod: loop.samplePeriod });
-  return continuousVerdict(loop);
+  const verdict = loop.samplePeriod !== undefined ? sampledVerdict({ ...loop, samplePeriod: loop.samplePeriod }) : continuousVerdict(loop);
+  if (Number.isNaN(verdict.unstablePoles)) throw new ControlInputError("plant", "is out of the range in which the loop's stability can be checked");
+  return verdict;
 }
