@@ -168,15 +168,18 @@ export function runFirstOrderLoop(
       const push = ki * e;
       let isHeld = clamp && ((high && push > 0) || (low && push < 0));
       let next = integral + (isHeld ? 0 : kih * e) + track * (u - v);
-      const pd = p + d;
-      const hi = pd < 0 ? iMax - pd : iMax;
-      const lo = pd > 0 ? iMin - pd : iMin;
-      if (next > hi) {
-        next = hi;
-        isHeld = true;
-      } else if (next < lo) {
-        next = lo;
-        isHeld = true;
+      // The widened bound contains [iMin, iMax], so inside that range nothing is to do.
+      if (next > iMax || next < iMin) {
+        const pd = p + d;
+        const hi = pd < 0 ? iMax - pd : iMax;
+        const lo = pd > 0 ? iMin - pd : iMin;
+        if (next > hi) {
+          next = hi;
+          isHeld = true;
+        } else if (next < lo) {
+          next = lo;
+          isHeld = true;
+        }
       }
       integral = next;
       derivative = d;

@@ -287,15 +287,17 @@ class PidController implements PidStepper {
     // Back-calculation term is zero in the other modes (k[8] = 0).
     let integral = s[0] + (held ? 0 : k[2] * e) + k[8] * (u - v);
     // The output range, widened by what P + D takes off it (see the header).
-    const pd = p + d;
-    const iMax = pd < 0 ? k[10] - pd : k[10];
-    const iMin = pd > 0 ? k[9] - pd : k[9];
-    if (integral > iMax) {
-      integral = iMax;
-      held = true;
-    } else if (integral < iMin) {
-      integral = iMin;
-      held = true;
+    if (integral > k[10] || integral < k[9]) {
+      const pd = p + d;
+      const iMax = pd < 0 ? k[10] - pd : k[10];
+      const iMin = pd > 0 ? k[9] - pd : k[9];
+      if (integral > iMax) {
+        integral = iMax;
+        held = true;
+      } else if (integral < iMin) {
+        integral = iMin;
+        held = true;
+      }
     }
     s[0] = integral;
     s[1] = d;
