@@ -1,5 +1,6 @@
 // The invented demo scenario (README.md, "Demo sign-ins"). Names, sites and people are made up.
 import type { Role } from "~/lib/access/capabilities";
+import { oscillationLimitPerHour } from "~/lib/health";
 
 export const DEMO_PASSWORD = "flyball-demo";
 
@@ -58,6 +59,8 @@ export type DemoFleet = {
   firmware: string[];
 };
 
+// Every template's oscillation limit follows Hägglund's rule (1995, memory): more than 10
+// load detections within 50·Tu, i.e. 720/Tu per hour (app/lib/health/REFERENCES.md).
 const zone = (n: number): LoopTemplateSpec => ({
   key: `zone_${n}`,
   name: `Barrel zone ${n}`,
@@ -68,7 +71,7 @@ const zone = (n: number): LoopTemplateSpec => ({
   outputMax: 255,
   defaultGains: { kp: 6.25, ki: 0.039, kd: 0 },
   gainEnvelope: { kp: [0.5, 40], ki: [0, 0.5], kd: [0, 200] },
-  thresholds: { acceptableAmplitude: 1.5, ultimatePeriod: 160, oscillationPerHour: 40, saturationWatch: 0.05, saturationAct: 0.2, clampWatch: 0.05, clampAct: 0.2, errRmsWatch: 1.5 },
+  thresholds: { acceptableAmplitude: 1.5, ultimatePeriod: 160, oscillationPerHour: oscillationLimitPerHour(160), saturationWatch: 0.05, saturationAct: 0.2, clampWatch: 0.05, clampAct: 0.2, errRmsWatch: 1.5 },
 });
 
 export const DEMO_FLEETS: Record<string, DemoFleet> = {
@@ -90,8 +93,7 @@ export const DEMO_FLEETS: Record<string, DemoFleet> = {
           outputMax: 100,
           defaultGains: { kp: 3.33, ki: 2.08, kd: 0 },
           gainEnvelope: { kp: [0.1, 20], ki: [0, 20], kd: [0, 2] },
-          // Hägglund 1995 (memory): oscillation is more than 10 load detections within 50·Tu, i.e. 720/Tu per hour.
-          thresholds: { acceptableAmplitude: 1, ultimatePeriod: 1.6, oscillationPerHour: 450 },
+          thresholds: { acceptableAmplitude: 1, ultimatePeriod: 1.6, oscillationPerHour: oscillationLimitPerHour(1.6) },
         },
         {
           key: "melt_pressure",
@@ -102,7 +104,7 @@ export const DEMO_FLEETS: Record<string, DemoFleet> = {
           outputMax: 100,
           defaultGains: { kp: 1.25, ki: 0.3125, kd: 0 },
           gainEnvelope: { kp: [0.05, 10], ki: [0, 5], kd: [0, 5] },
-          thresholds: { acceptableAmplitude: 3, ultimatePeriod: 4, oscillationPerHour: 180 },
+          thresholds: { acceptableAmplitude: 3, ultimatePeriod: 4, oscillationPerHour: oscillationLimitPerHour(4) },
         },
       ],
     },
@@ -129,7 +131,7 @@ export const DEMO_FLEETS: Record<string, DemoFleet> = {
           outputMax: 100,
           defaultGains: { kp: 1.25, ki: 0.83, kd: 0 },
           // a ≈ 1 % of a 0–150 m³/h range (app/lib/health/REFERENCES.md, Hägglund 1995: a is 1 % of range).
-          thresholds: { acceptableAmplitude: 1.5, ultimatePeriod: 1.5, oscillationPerHour: 480 },
+          thresholds: { acceptableAmplitude: 1.5, ultimatePeriod: 1.5, oscillationPerHour: oscillationLimitPerHour(1.5) },
         },
         {
           key: "pressure",
@@ -140,7 +142,7 @@ export const DEMO_FLEETS: Record<string, DemoFleet> = {
           outputMax: 100,
           defaultGains: { kp: 30, ki: 10, kd: 0 },
           gainEnvelope: { kp: [1, 100], ki: [0, 50], kd: [0, 10] },
-          thresholds: { acceptableAmplitude: 0.1, ultimatePeriod: 3, oscillationPerHour: 240 },
+          thresholds: { acceptableAmplitude: 0.1, ultimatePeriod: 3, oscillationPerHour: oscillationLimitPerHour(3) },
         },
       ],
     },

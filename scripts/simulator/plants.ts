@@ -81,35 +81,53 @@ export class LoopSim {
     return this.spec.gain * wear;
   }
 
-  /** Rebuild the plant for the plant's age (fouling stretches the time constant), keeping the loop at rest. */
+  private timeConstant(day: number): number {
+    const fouling = this.template.key === "melt_pressure" || this.template.key === "flow" ? 1 + this.ageing.foulingPerDay * day : 1;
+    return this.spec.timeConstant * fouling;
+  }
+
+  private discreteFor(day: number) {
+    return discretisePlant({ type: "fopdt", gain: 1, timeConstant: this.timeConstant(day), deadTime: this.spec.deadTime }, this.template.samplePeriodS);
+  }
+
+  /**
+   * Age the plant to `day` (fouling stretches the time constant, read once per whole day).
+   * The first call starts the loop at rest on its set point; later calls change the plant
+   * in place, so the process value, the delay line and the controller carry straight on
+   * across the day boundary (a reset there made a false error spike at every day start).
+   */
   setAge(day: number) {
     const whole = Math.floor(day);
     if (whole === this.day) return;
+    const first = this.day < 0;
     this.day = whole;
-    const fouling = this.template.key === "melt_pressure" || this.template.key === "flow" ? 1 + this.ageing.foulingPerDay * whole : 1;
-    const discrete = discretisePlant({ type: "fopdt", gain: 1, timeConstant: this.spec.timeConstant * fouling, deadTime: this.spec.deadTime }, this.template.samplePeriodS);
+    const discrete = this.discreteFor(whole);
+    if (!first) {
+      this.plant.changeModel(discrete);
+      return;
+    }
     const u0 = Math.min(this.template.outputMax, this.steadyInput(whole));
-    this.plant = createPlantSimulator(discrete, u0 * this.effectiveGain(whole));
-    this.buildController(u0);
-    // Start at rest: run the plant to steady state on the held input (cheap for an FOPDT).
-    for (let i = 0; i < Math.ceil((5 * this.spec.timeConstant * fouling + this.spec.deadTime) / this.template.samplePeriodS); i++) this.plant.advance(u0 * this.effectiveGain(whole));
-  }
-
-  private buildController(initial: number) {
+    const input = u0 * this.effectiveGain(whole);
+    this.plant = createPlantSimulator(discrete, input);
     this.pid = createPidController({
       gains: { form: "parallel", ...this.gains },
       samplePeriod: this.template.samplePeriodS,
       outputLimits: { min: this.template.outputMin, max: this.template.outputMax },
       antiWindup: "clamp",
-      initialIntegral: Math.max(this.template.outputMin, Math.min(this.template.outputMax, initial)),
+      initialIntegral: Math.max(this.template.outputMin, Math.min(this.template.outputMax, u0)),
     });
-    this.held = initial;
+    this.held = u0;
+    // Start at rest: run the plant to steady state on the held input (cheap for an FOPDT);
+    // 12 time constants leave e^(−12) ≈ 6·10⁻⁶ of the step, far below the noise.
+    const settle = Math.ceil((12 * this.timeConstant(whole) + this.spec.deadTime) / this.template.samplePeriodS);
+    for (let i = 0; i < settle; i++) this.plant.advance(input);
   }
 
+  /** New gains take effect bumplessly: the PID keeps its output at the switch (PidStepper.setGains). */
   applyGains(gains: Gains, version: number) {
     this.gains = gains;
     this.gainVersion = version;
-    this.buildController(this.pid?.integral ?? this.steadyInput(Math.max(this.day, 0)));
+    this.pid?.setGains({ form: "parallel", ...gains });
   }
 
   /** Run `seconds` of operation and return the window's digest statistics. */

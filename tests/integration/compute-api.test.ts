@@ -31,11 +31,27 @@ describe("POST /api/v1/compute/margins", () => {
     // app/lib/control/REFERENCES.md closed-form facts (derived): Ku = 8, ωu = √3 for 1/(s+1)^3.
     const { status, body } = await compute("margins", { plant: cubicLag, controller: { form: "standard", kc: 4, ti: null, td: 0 } });
     expect(status).toBe(200);
-    expect(Object.keys(body).sort()).toEqual(["delayMargin", "gainCrossoverFrequency", "gainMargin", "peakSensitivity", "phaseCrossoverFrequency", "phaseMargin"]);
+    expect(Object.keys(body).sort()).toEqual(["delayMargin", "gainCrossoverFrequency", "gainMargin", "peakSensitivity", "phaseCrossoverFrequency", "phaseMargin", "stable"]);
+    expect(body.stable).toBe(true);
     expect(body.gainMargin).toBeCloseTo(2, 4);
     expect(body.phaseCrossoverFrequency).toBeCloseTo(Math.sqrt(3), 4);
     // GM ≥ Ms/(Ms − 1) (app/lib/control/REFERENCES.md margins, published inequality)
     expect(body.gainMargin).toBeGreaterThanOrEqual(body.peakSensitivity / (body.peakSensitivity - 1) - 1e-9);
+  });
+
+  it("answers stable false and a null Ms for unstable loops (app/lib/control/REFERENCES.md, derived)", async () => {
+    // FOPDT K=1, τ=1, θ=1 under P kp=5 > Ku = 2.2611; FOPDT τ=0.01 with PI Kc=0.5, Ti=0.01 at h=1.
+    const a = await compute("margins", { plant: { type: "fopdt", gain: 1, timeConstant: 1, deadTime: 1 }, controller: { form: "parallel", kp: 5, ki: 0, kd: 0 } });
+    expect(a.status).toBe(200);
+    expect(a.body.stable).toBe(false);
+    expect(a.body.peakSensitivity).toBeNull();
+    const b = await compute("margins", { plant: { type: "fopdt", gain: 1, timeConstant: 0.01, deadTime: 0 }, controller: { form: "standard", kc: 0.5, ti: 0.01, td: 0 }, samplePeriod: 1 });
+    expect(b.body.stable).toBe(false);
+    expect(b.body.peakSensitivity).toBeNull();
+    // 2(s+2)²/s³ under P=1: GM 0.5, yet the closed-loop poles −1.1397, −0.4302 ± 2.6143j are stable.
+    const c = await compute("margins", { plant: { type: "tf", numerator: [2, 8, 8], denominator: [1, 0, 0, 0] }, controller: { form: "parallel", kp: 1, ki: 0, kd: 0 } });
+    expect(c.body.stable).toBe(true);
+    expect(c.body.gainMargin).toBeCloseTo(0.5, 6);
   });
 
   it("answers null margins where there is no crossover", async () => {
@@ -159,6 +175,37 @@ describe("POST /api/v1/compute/simulate and step-info", () => {
     expect(body.y[1000]).toBeCloseTo(1, 2);
     expect(body.metrics.iae).toBeGreaterThan(0);
     expect(body.metrics.overshootPercent).toBeGreaterThanOrEqual(0);
+    expect(body.diverged).toBe(false);
+    expect(body.divergedAt).toBeNull();
+  });
+
+  it("flags a diverging run with the time it left the finite numbers", async () => {
+    // FOPDT (1, 1, 1), PI kp=5, ki=1, h=0.01 (1500 s: the 2000 s is past the 200 000-sample
+    // limit): u is first non-finite at 1100.60 s (derived by simulation, app/lib/control/simulate.test.ts).
+    const { status, body } = await compute("simulate", {
+      plant: { type: "fopdt", gain: 1, timeConstant: 1, deadTime: 1 },
+      controller: { form: "parallel", kp: 5, ki: 1, kd: 0 },
+      samplePeriod: 0.01,
+      duration: 1500,
+    });
+    expect(status).toBe(200);
+    expect(body.diverged).toBe(true);
+    expect(body.divergedAt).toBeCloseTo(1100.6, 6);
+    expect(body.y).toHaveLength(110_060);
+  });
+
+  it("answers 400 too_large for work past about a second, and a huge dead time runs in little memory", async () => {
+    const order20 = { type: "tf", numerator: [1], denominator: [1, ...new Array(19).fill(0), 1] };
+    const big = await compute("simulate", { plant: order20, controller: { form: "parallel", kp: 0.01, ki: 0, kd: 0 }, samplePeriod: 0.01, duration: 1999 });
+    expect(big.status).toBe(400);
+    expect(big.body.error.code).toBe("too_large");
+    const margins = await compute("margins", { plant: { type: "sopdt", gain: 1, timeConstants: [1, 2], deadTime: 1e7 }, controller: { form: "parallel", kp: 1, ki: 0, kd: 0 }, samplePeriod: 0.01 });
+    expect(margins.status).toBe(400);
+    expect(margins.body.error.code).toBe("too_large");
+    // θ/h = 1e9: the delay line is capped at the 3 samples simulated.
+    const deep = await compute("simulate", { plant: { type: "sopdt", gain: 1, timeConstants: [1, 2], deadTime: 1e7 }, controller: { form: "parallel", kp: 1, ki: 0, kd: 0 }, samplePeriod: 0.01, duration: 0.02 });
+    expect(deep.status).toBe(200);
+    expect(deep.body.y).toEqual([0, 0, 0]);
   });
 
   it("gives 16.3034 % overshoot for ζ 0.5, ωn 1 (any control textbook: exp(−ζπ/√(1−ζ²)))", async () => {

@@ -6,7 +6,7 @@ import { z } from "zod";
 import { recordAudit } from "~/.server/audit/record-audit";
 import type { Db } from "~/.server/db/client";
 import { gainSet, loopTemplate, machineModel } from "~/.server/db/schema";
-import { toParallelGains } from "~/lib/control";
+import { checkGainSigns, toParallelGains } from "~/lib/control";
 
 /** Loop templates the bench can save for, with what the page needs to show them. */
 export async function listBenchTemplates(db: Db, { organisationId }: { organisationId: string }) {
@@ -36,7 +36,12 @@ const finite = z.number().refine(Number.isFinite, "must be a finite number");
 export const DraftGainSetSchema = z.strictObject({
   templateId: z.uuid("Choose a loop template."),
   gains: z.discriminatedUnion("form", [
-    z.strictObject({ form: z.literal("parallel"), kp: finite, ki: finite.refine((v) => v >= 0, "must not be negative"), kd: finite.refine((v) => v >= 0, "must not be negative") }),
+    z
+      .strictObject({ form: z.literal("parallel"), kp: finite, ki: finite, kd: finite })
+      .superRefine((gains, ctx) => {
+        const wrong = checkGainSigns(gains);
+        if (wrong) ctx.addIssue({ code: "custom", path: [wrong.field], message: wrong.message });
+      }),
     z.strictObject({ form: z.literal("standard"), kc: finite, ti: finite.refine((v) => v > 0, "must be above 0").nullable(), td: finite.refine((v) => v >= 0, "must not be negative") }),
   ]),
   filterN: finite.refine((v) => v > 0 && v <= 1000, "must be between 0 and 1000").nullable().optional(),

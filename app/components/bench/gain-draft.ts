@@ -1,6 +1,6 @@
 // Gains as typed in the editor (strings), read into PidGains with a message per field.
 import type { PidGains } from "~/lib/control";
-import type { ParallelGains, StandardGains } from "~/lib/control";
+import { checkGainSigns, type ParallelGains, type StandardGains } from "~/lib/control";
 import { parseNumber, toInputValue } from "./format";
 import type { GainForm } from "./proposal-table";
 
@@ -26,9 +26,12 @@ export function readGainDraft(draft: GainDraft): { ok: true; gains: PidGains } |
     if (Object.keys(errors).length) return { ok: false, errors };
     return { ok: true, gains: { form: "standard", kc: a!, ti: b, td: c! } };
   }
-  if (draft.b.trim() !== "" && (b === null || b < 0)) errors.b = "Enter 0 or more.";
-  if (c === null || c < 0) errors.c = "Enter 0 or more.";
+  if (draft.b.trim() !== "" && b === null) errors.b = "Enter a number.";
+  if (c === null) errors.c = "Enter a number.";
   if (a === 0 && ((b ?? 0) !== 0 || c !== 0)) errors.a = "Needs a proportional gain other than 0.";
   if (Object.keys(errors).length) return { ok: false, errors };
+  // Reverse acting: all three negative, as a negative Kc is in standard form.
+  const wrong = checkGainSigns({ kp: a!, ki: b ?? 0, kd: c! });
+  if (wrong) return { ok: false, errors: { [wrong.field === "ki" ? "b" : "c"]: "Give it the sign of kp (all negative for a reverse-acting loop)." } };
   return { ok: true, gains: { form: "parallel", kp: a!, ki: b ?? 0, kd: c! } };
 }

@@ -13,9 +13,9 @@ export const MODEL_SOURCE_LABELS: Record<ModelSource, string> = {
 };
 
 const HELP: Record<ModelSource, string> = {
-  "least-squares": "Fitted to every sample by the server.",
-  smith: "From the 28 % and 63 % crossing times.",
-  "sundaresan-krishnaswamy": "From the 35 % and 85 % crossing times.",
+  "least-squares": "Fitted to every sample by the server. Trust this one on noisy data.",
+  smith: "From the 28 % and 63 % crossing times of the smoothed response; on noisy data prefer the fit.",
+  "sundaresan-krishnaswamy": "From the 35 % and 85 % crossing times of the smoothed response; on noisy data prefer the fit.",
   typed: "The gain, time constant and dead time you typed.",
 };
 

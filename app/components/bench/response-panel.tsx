@@ -29,6 +29,13 @@ export function ScoreList({ score, units }: { score: LoopScore; units: Units }) 
           </div>
         ))}
       </dl>
+      {score.divergedAt !== null ? (
+        <p className="mt-1.5 text-xs text-act" data-testid="diverged-note">
+          Diverged: the simulated response ran away at {formatTime(score.divergedAt)} s, so the figures stop there.
+        </p>
+      ) : !score.stable ? (
+        <p className="mt-1.5 text-xs text-act">Unstable: the closed loop has poles outside the stable region, so Ms is not given.</p>
+      ) : null}
       {score.settlingTime === null && score.risk.level !== "unstable" ? (
         <p className="mt-1.5 text-xs text-ink-faint">Settling “–”: not within 2 % before the load step.</p>
       ) : null}

@@ -67,7 +67,7 @@ export function SaveDraft({
           ? {
               gainMargin: score.gainMargin,
               phaseMargin: score.phaseMargin,
-              peakSensitivity: Number.isFinite(score.peakSensitivity) ? score.peakSensitivity : null,
+              peakSensitivity: score.peakSensitivity !== null && Number.isFinite(score.peakSensitivity) ? score.peakSensitivity : null,
               overshootPercent: score.overshootPercent,
               settlingTime: score.settlingTime,
               iae: score.iae,

@@ -79,12 +79,18 @@ describe("suggestSettings", () => {
 
 describe("judgeRisk", () => {
   it("flags Ms above 2 and phase margin under 30° in words", () => {
-    expect(judgeRisk({ gainMargin: 3, phaseMargin: 60, peakSensitivity: 1.4 })).toEqual({ level: "ok", reasons: [] });
-    expect(judgeRisk({ gainMargin: 2, phaseMargin: 25, peakSensitivity: 2.3 })).toEqual({
+    expect(judgeRisk({ stable: true, phaseMargin: 60, peakSensitivity: 1.4 })).toEqual({ level: "ok", reasons: [] });
+    expect(judgeRisk({ stable: true, phaseMargin: 25, peakSensitivity: 2.3 })).toEqual({
       level: "risky",
       reasons: ["Ms above 2", "phase margin under 30°"],
     });
-    expect(judgeRisk({ gainMargin: 0.8, phaseMargin: -5, peakSensitivity: 9 }).level).toBe("unstable");
+    expect(judgeRisk({ stable: false, phaseMargin: -5, peakSensitivity: null }).level).toBe("unstable");
+  });
+
+  it("never calls an unstable or diverged loop ok (issue 8, defect 3)", () => {
+    // Whatever the margins say, an unstable verdict or a diverged run is "unstable".
+    expect(judgeRisk({ stable: false, phaseMargin: 60, peakSensitivity: 1.2 }).level).toBe("unstable");
+    expect(judgeRisk({ stable: true, phaseMargin: 60, peakSensitivity: 1.2 }, true)).toEqual({ level: "unstable", reasons: ["the simulated response diverged"] });
   });
 });
 
@@ -112,7 +118,10 @@ describe("compareProposals", () => {
       ].sort(),
     );
     for (const row of rows) {
-      expect(row.peakSensitivity).toBeGreaterThan(1);
+      // Derived: Ms ≥ 1 for a stable strictly proper loop (REFERENCES.md in lib/control); null when unstable.
+      if (row.stable) expect(row.peakSensitivity).toBeGreaterThan(1);
+      else expect(row.peakSensitivity).toBeNull();
+      if (!row.stable) expect(row.risk.level).toBe("unstable");
       expect(row.iae).toBeGreaterThan(0);
       expect(row.saturatedFraction).toBeGreaterThanOrEqual(0);
       expect(row.saturatedFraction).toBeLessThanOrEqual(1);
@@ -161,9 +170,20 @@ describe("simulateBenchLoop", () => {
     expect(response.u[n - 1]).toBeCloseTo(20 + 0.5 + 0.25, 2);
   });
 
-  it("reports a diverging loop as unstable", () => {
+  it("reports a diverging loop as unstable, with the time it diverged", () => {
     const response = simulateBenchLoop(model, { form: "standard", kc: 20, ti: 2, td: 0 }, settings({ outputLimits: null }));
     expect(response.score.risk.level).toBe("unstable");
+    expect(response.score.stable).toBe(false);
+    expect(response.score.peakSensitivity).toBeNull();
+    expect(response.score.divergedAt).not.toBeNull();
+  });
+
+  it("calls the issue's unstable P loop unstable, never Sound (issue 8, defect 3)", () => {
+    // FOPDT K=1, τ=1, θ=1 with P kp=5 > Ku = 2.2611 (REFERENCES.md in lib/control).
+    const fopdt = { type: "fopdt" as const, gain: 1, timeConstant: 1, deadTime: 1 };
+    const response = simulateBenchLoop(fopdt, { form: "parallel", kp: 5, ki: 0, kd: 0 }, settings({ outputLimits: null, samplePeriod: 0.05 }));
+    expect(response.score.risk.level).toBe("unstable");
+    expect(response.score.peakSensitivity).toBeNull();
   });
 
   it("counts saturation when the limits are tight", () => {

@@ -70,10 +70,14 @@ export interface RiskVerdict {
 }
 
 export interface LoopScore {
+  /** From the closed-loop poles of the sampled loop, not from the margins. */
+  stable: boolean;
+  /** Time (s) at which the simulated response left the finite numbers (or the bench's bound); null if it did not. */
+  divergedAt: number | null;
   gainMargin: number | null;
   phaseMargin: number | null;
-  /** Peak sensitivity Ms; Infinity when 1 + L touches zero. */
-  peakSensitivity: number;
+  /** Peak sensitivity Ms; null for an unstable loop (it means nothing there). */
+  peakSensitivity: number | null;
   delayMargin: number | null;
   overshootPercent: number | null;
   riseTime: number | null;
@@ -195,15 +199,24 @@ export function suggestSettings(model: FopdtModel, test?: StepTestData): BenchSe
   };
 }
 
-export function judgeRisk(margins: { gainMargin: number | null; phaseMargin: number | null; peakSensitivity: number }, diverged = false): RiskVerdict {
+/**
+ * "ok" (shown as Sound) only for a loop that is stable by its closed-loop poles, did not
+ * diverge in simulation and keeps Ms and PM inside RISK_LIMITS. GM < 1 alone proves nothing
+ * (a conditionally stable loop has it), so it is not read as instability.
+ */
+export function judgeRisk(
+  margins: { stable: boolean; phaseMargin: number | null; peakSensitivity: number | null },
+  diverged = false,
+): RiskVerdict {
+  if (!margins.stable || diverged) {
+    return { level: "unstable", reasons: [diverged ? "the simulated response diverged" : "the loop is unstable"] };
+  }
   const reasons: string[] = [];
-  const unstable = diverged || (margins.gainMargin !== null && margins.gainMargin < 1) || (margins.phaseMargin !== null && margins.phaseMargin < 0);
-  if (unstable) reasons.push("the loop is unstable");
-  if (!(margins.peakSensitivity <= RISK_LIMITS.peakSensitivity)) reasons.push(`Ms above ${RISK_LIMITS.peakSensitivity}`);
+  if (!(margins.peakSensitivity !== null && margins.peakSensitivity <= RISK_LIMITS.peakSensitivity)) reasons.push(`Ms above ${RISK_LIMITS.peakSensitivity}`);
   if (margins.phaseMargin !== null && margins.phaseMargin < RISK_LIMITS.phaseMarginDegrees) {
     reasons.push(`phase margin under ${RISK_LIMITS.phaseMarginDegrees}°`);
   }
-  return { level: unstable ? "unstable" : reasons.length ? "risky" : "ok", reasons };
+  return { level: reasons.length ? "risky" : "ok", reasons };
 }
 
 function deviationLimits(settings: BenchSettings) {
@@ -238,9 +251,15 @@ function runLoop(model: FopdtModel, gains: PidGains, settings: BenchSettings) {
   // Step figures from the set-point window only: the load step must not count as "not settled".
   const loadIndex = Math.min(result.t.length, Math.round(scenario.loadTime / h));
   const step = computeSetpointStepMetrics(result.t.slice(0, loadIndex), result.r.slice(0, loadIndex), result.y.slice(0, loadIndex));
+  // Past a million times the test's own size the response has diverged for any practical
+  // purpose, even before it leaves the finite numbers.
   const bound = 1e6 * Math.max(Math.abs(settings.setpointChange), Math.abs(settings.loadStep * model.gain), 1e-12);
-  const diverged = result.y.some((v) => !Number.isFinite(v) || Math.abs(v) > bound);
+  const beyond = result.y.findIndex((v) => Math.abs(v) > bound);
+  const divergedAt = beyond >= 0 ? result.t[beyond] : result.divergedAt;
+  const diverged = divergedAt !== null;
   const score: LoopScore = {
+    stable: margins.stable,
+    divergedAt,
     gainMargin: margins.gainMargin,
     phaseMargin: margins.phaseMargin,
     peakSensitivity: margins.peakSensitivity,

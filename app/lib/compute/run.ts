@@ -15,6 +15,7 @@ import {
   type TuningRule,
   type ValueStep,
 } from "~/lib/control";
+import { requireSimulationWithinLimit } from "./limits";
 import type { ControllerInput, IdentifyRequest, MarginsRequest, PlantInput, SimulateRequest, StepInfoRequest, TuneRequest } from "./schemas";
 
 export function toPlantModel(plant: PlantInput): PlantModel {
@@ -52,12 +53,14 @@ export function answerMargins(request: MarginsRequest) {
     samplePeriod: request.samplePeriod,
   });
   return {
+    // From the closed-loop poles; Ms is null when the loop is unstable.
+    stable: m.stable,
     gainMargin: m.gainMargin,
     phaseCrossoverFrequency: m.phaseCrossoverFrequency,
     phaseMargin: m.phaseMargin,
     gainCrossoverFrequency: m.gainCrossoverFrequency,
     delayMargin: m.delayMargin,
-    peakSensitivity: Number.isFinite(m.peakSensitivity) ? m.peakSensitivity : null,
+    peakSensitivity: m.peakSensitivity !== null && Number.isFinite(m.peakSensitivity) ? m.peakSensitivity : null,
   };
 }
 
@@ -100,6 +103,7 @@ function asSteps(value: number | ValueStep | ValueStep[] | undefined): ValueStep
 }
 
 export function answerSimulate(request: SimulateRequest) {
+  requireSimulationWithinLimit(request);
   const result = simulateClosedLoop({
     plant: toPlantModel(request.plant),
     controller: toControllerConfig(request.controller),
@@ -109,7 +113,16 @@ export function answerSimulate(request: SimulateRequest) {
     loadDisturbance: asSteps(request.loadStep),
     noise: request.noise,
   });
-  return { t: result.t, r: result.r, y: result.y, u: result.u, metrics: result.metrics };
+  // A diverging run stops at its first non-finite value: the series end there.
+  return {
+    t: result.t,
+    r: result.r,
+    y: result.y,
+    u: result.u,
+    metrics: result.metrics,
+    diverged: result.divergedAt !== null,
+    divergedAt: result.divergedAt,
+  };
 }
 
 export function answerStepInfo(request: StepInfoRequest) {

@@ -2,6 +2,7 @@
 // routes and the tuning bench page. Numbers are SI with times in seconds. Every object is
 // strict: an unknown field is refused, and so is NaN, ±Infinity or a negative time.
 import { z } from "zod";
+import { checkGainSigns } from "~/lib/control";
 
 export const MAX_SAMPLES = 200_000;
 
@@ -58,7 +59,13 @@ const controllerOptions = {
 };
 
 export const ControllerSchema = z.discriminatedUnion("form", [
-  z.strictObject({ form: z.literal("parallel"), kp: finite(), ki: nonNegative(), kd: nonNegative(), ...controllerOptions }),
+  z
+    .strictObject({ form: z.literal("parallel"), kp: finite(), ki: finite(), kd: finite(), ...controllerOptions })
+    .superRefine((gains, ctx) => {
+      // One sign convention in every form: reverse acting means all gains negative.
+      const wrong = checkGainSigns(gains);
+      if (wrong) ctx.addIssue({ code: "custom", path: [wrong.field], message: wrong.message });
+    }),
   z.strictObject({ form: z.literal("standard"), kc: finite(), ti: positive().nullable(), td: nonNegative(), ...controllerOptions }),
   z.strictObject({ form: z.literal("series"), kc: finite(), ti: positive().nullable(), td: nonNegative(), ...controllerOptions }),
 ], { error: "form must be parallel, standard or series" });

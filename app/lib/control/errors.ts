@@ -3,13 +3,14 @@ import { DomainError } from "~/lib/errors";
 /**
  * The error the control engine throws for bad input: a DomainError whose `field` names the
  * offending input (a dotted path such as `plant.timeConstant`) so a form can put the message
- * beside it.
+ * beside it. `code` is "too_large" when the input is valid but would take more work than allowed.
  */
 export class ControlInputError extends DomainError {
   declare readonly field: string;
+  declare readonly code: "invalid_input" | "too_large";
 
-  constructor(field: string, message: string) {
-    super("invalid_input", `${field}: ${message}`, { field, issues: [{ path: field.split("."), message: `${field}: ${message}` }] });
+  constructor(field: string, message: string, code: "invalid_input" | "too_large" = "invalid_input") {
+    super(code, `${field}: ${message}`, { field, issues: [{ path: field.split("."), message: `${field}: ${message}` }] });
     this.name = "ControlInputError";
   }
 }

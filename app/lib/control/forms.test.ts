@@ -2,12 +2,14 @@ import fc from "fast-check";
 import { describe, expect, it } from "vitest";
 import { ControlInputError } from "./errors";
 import {
+  checkGainSigns,
   describeGainForms,
   parallelToStandard,
   seriesToStandard,
   standardToParallel,
   standardToSeries,
   toParallelGains,
+  toStandardGains,
 } from "./forms";
 
 describe("PID form conversions", () => {
@@ -92,5 +94,22 @@ describe("PID form conversions", () => {
         },
       ),
     );
+  });
+});
+
+describe("sign convention in every form (issue 8, defect 9)", () => {
+  // Derived from kp = Kc, ki = Kc/Ti, kd = Kc·Td (REFERENCES.md conventions): a reverse-acting
+  // controller Kc = −2, Ti = 4, Td = 0.5 is kp = −2, ki = −0.5, kd = −1 in parallel form.
+  it("a reverse-acting controller converts both ways", () => {
+    expect(standardToParallel({ kc: -2, ti: 4, td: 0.5 })).toEqual({ kp: -2, ki: -0.5, kd: -1 });
+    expect(toStandardGains({ form: "parallel", kp: -2, ki: -0.5, kd: -1 })).toEqual({ kc: -2, ti: 4, td: 0.5 });
+    expect(toParallelGains({ form: "parallel", kp: -2, ki: -0.5, kd: -1 })).toEqual({ kp: -2, ki: -0.5, kd: -1 });
+  });
+
+  it("refuses mixed signs in parallel form, naming the field", () => {
+    expect(checkGainSigns({ kp: -2, ki: 0.5, kd: 0 })?.field).toBe("ki");
+    expect(checkGainSigns({ kp: 2, ki: 0.5, kd: -1 })?.field).toBe("kd");
+    expect(checkGainSigns({ kp: 0, ki: -0.5, kd: 0 })).toBeNull();
+    expect(() => toParallelGains({ form: "parallel", kp: 2, ki: -0.5, kd: 0 })).toThrow(expect.objectContaining({ field: "gains.ki" }));
   });
 });

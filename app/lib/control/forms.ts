@@ -8,6 +8,11 @@
  *
  * `ti: null` means no integral action in both the standard and the series form. Gains are
  * per second (ki in 1/s, kd in s).
+ *
+ * Sign convention, the same in every form: a reverse-acting controller (for a plant with a
+ * negative gain) has all its actions negative. In standard and series form that is a
+ * negative Kc with positive times; in parallel form the non-zero gains of kp, ki and kd
+ * share one sign (checkGainSigns).
  */
 import { ControlInputError, requireFinite, requireNonNegative, requirePositive } from "./errors";
 
@@ -37,6 +42,20 @@ function checkStandard(gains: StandardGains, prefix: string): void {
   requireFinite(`${prefix}.kc`, gains.kc);
   if (gains.ti !== null) requirePositive(`${prefix}.ti`, gains.ti);
   requireNonNegative(`${prefix}.td`, gains.td);
+}
+
+/**
+ * The sign convention for parallel gains: the non-zero ones share one sign. Returns the
+ * offending field and why, or null when the gains follow it.
+ */
+export function checkGainSigns(gains: ParallelGains): { field: "ki" | "kd"; message: string } | null {
+  const sign = Math.sign(gains.kp) || Math.sign(gains.ki) || Math.sign(gains.kd);
+  for (const field of ["ki", "kd"] as const) {
+    if (gains[field] !== 0 && Math.sign(gains[field]) !== sign) {
+      return { field, message: `must have the same sign as ${field === "kd" && gains.kp === 0 ? "ki" : "kp"} (a reverse-acting controller has all gains negative)` };
+    }
+  }
+  return null;
 }
 
 export function standardToParallel(gains: StandardGains): ParallelGains {
@@ -105,11 +124,14 @@ export function standardToSeries(gains: StandardGains): SeriesGains | null {
 
 export function toParallelGains(gains: PidGains): ParallelGains {
   switch (gains.form) {
-    case "parallel":
+    case "parallel": {
       requireFinite("gains.kp", gains.kp);
       requireFinite("gains.ki", gains.ki);
       requireFinite("gains.kd", gains.kd);
+      const wrong = checkGainSigns(gains);
+      if (wrong) throw new ControlInputError(`gains.${wrong.field}`, wrong.message);
       return { kp: gains.kp, ki: gains.ki, kd: gains.kd };
+    }
     case "standard":
       return standardToParallel(gains);
     case "series":

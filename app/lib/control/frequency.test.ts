@@ -1,7 +1,9 @@
 import fc from "fast-check";
 import { describe, expect, it } from "vitest";
 import { computeFrequencyResponse, computeMargins, computeUltimatePoint, type LoopSpec } from "./frequency";
+import { findPolynomialRoots } from "./polynomial";
 import { simulateClosedLoop } from "./simulate";
+import { assessClosedLoopStability } from "./stability";
 
 const cubic = { type: "tf" as const, numerator: [1], denominator: [1, 3, 3, 1] };
 
@@ -68,14 +70,16 @@ describe("stability margins", () => {
     if (m.gainMargin === null) expect(brute.gm).toBe(Infinity);
     else expect(Math.abs(m.gainMargin - brute.gm) / brute.gm).toBeLessThan(1e-3);
     expect(Math.abs(m.phaseMargin! - brute.pm)).toBeLessThan(0.05);
-    expect(m.peakSensitivity).toBeGreaterThanOrEqual(brute.ms * (1 - 1e-9));
-    expect(Math.abs(m.peakSensitivity - brute.ms) / brute.ms).toBeLessThan(1e-4);
+    // These loops are all stable (derived: each has PM > 0 and a single crossover).
+    expect(m.stable).toBe(true);
+    expect(m.peakSensitivity!).toBeGreaterThanOrEqual(brute.ms * (1 - 1e-9));
+    expect(Math.abs(m.peakSensitivity! - brute.ms) / brute.ms).toBeLessThan(1e-4);
   });
 
   it.each(loops)("GM ≥ Ms/(Ms − 1) and PM ≥ 2·asin(1/(2Ms)) (%s)", (_, loop) => {
     // REFERENCES.md "Margins" (published inequalities).
     const m = computeMargins(loop);
-    const ms = m.peakSensitivity;
+    const ms = m.peakSensitivity!;
     if (m.gainMargin !== null) expect(m.gainMargin).toBeGreaterThanOrEqual(ms / (ms - 1) - 1e-9);
     expect(m.phaseMargin!).toBeGreaterThanOrEqual(((2 * Math.asin(1 / (2 * ms))) * 180) / Math.PI - 1e-9);
   });
@@ -159,5 +163,86 @@ describe("stability margins", () => {
       ),
       { numRuns: 40 },
     );
+  });
+});
+
+describe("closed-loop stability verdict (issue 8, defect 3)", () => {
+  // REFERENCES.md "Closed-loop stability" (derived from the characteristic equations).
+  it("FOPDT K=1, τ=1, θ=1 under P kp=5 is unstable: no Ms", () => {
+    // kp = 5 > Ku = 2.2611, so unstable; the margins are still reported (GM 0.452, PM −179°).
+    const m = computeMargins({ plant: { type: "fopdt", gain: 1, timeConstant: 1, deadTime: 1 }, controller: { gains: { form: "parallel", kp: 5, ki: 0, kd: 0 } } });
+    expect(m.stable).toBe(false);
+    expect(m.peakSensitivity).toBeNull();
+    expect(m.gainMargin).toBeCloseTo(2.2611 / 5, 3);
+  });
+
+  it("FOPDT K=1, τ=0.01, θ=0, PI Kc=0.5, Ti=0.01 at h=1 is unstable: no Ms (was 0.039)", () => {
+    // χ(z) ≈ z² − 0.5z + 49.5, roots of modulus √49.5 = 7.04 > 1.
+    const loop = {
+      plant: { type: "fopdt", gain: 1, timeConstant: 0.01, deadTime: 0 } as const,
+      controller: { gains: { form: "standard", kc: 0.5, ti: 0.01, td: 0 } as const },
+      samplePeriod: 1,
+    };
+    const m = computeMargins(loop);
+    expect(m.stable).toBe(false);
+    expect(m.peakSensitivity).toBeNull();
+    expect(assessClosedLoopStability(loop).unstablePoles).toBe(2);
+  });
+
+  it("2(s+2)²/s³ under P=1 is stable although GM = 0.5", () => {
+    // s³ + 2s² + 8s + 8 = 0: roots −1.1397, −0.4302 ± 2.6143j (all in the left half-plane).
+    const loop: LoopSpec = { plant: { type: "tf", numerator: [2, 8, 8], denominator: [1, 0, 0, 0] }, controller: { gains: { form: "parallel", kp: 1, ki: 0, kd: 0 } } };
+    const roots = findPolynomialRoots([1, 2, 8, 8]).sort((a, b) => a.re - b.re);
+    expect(roots[0].re).toBeCloseTo(-1.1397, 4);
+    expect(roots[1].re).toBeCloseTo(-0.4302, 4);
+    expect(Math.abs(roots[1].im)).toBeCloseTo(2.6143, 4);
+    const m = computeMargins(loop);
+    expect(m.gainMargin).toBeCloseTo(0.5, 6);
+    expect(m.stable).toBe(true);
+    expect(m.peakSensitivity!).toBeGreaterThanOrEqual(1);
+    // Derived: at h = 0.01 the sampled loop is close to the continuous one, so stable too.
+    expect(assessClosedLoopStability({ ...loop, samplePeriod: 0.01 }).stable).toBe(true);
+  });
+
+  it("agrees with the ultimate gain of FOPDT 1/(s+1)·e^(−s) on both sides of Ku", () => {
+    // Derived: ωu + atan(ωu) = π → ωu = 2.0288, Ku = √(1 + ωu²) = 2.2611.
+    const plant = { type: "fopdt", gain: 1, timeConstant: 1, deadTime: 1 } as const;
+    const verdict = (kp: number) => assessClosedLoopStability({ plant, controller: { gains: { form: "parallel", kp, ki: 0, kd: 0 } } });
+    expect(verdict(2.25).stable).toBe(true);
+    expect(verdict(2.27).stable).toBe(false);
+    expect(verdict(2.27).unstablePoles).toBe(2);
+  });
+
+  it("sampled and continuous verdicts agree with simulation over random PI loops (property)", () => {
+    // Derived: a stable sampled loop's step response settles; an unstable one grows.
+    fc.assert(
+      fc.property(
+        fc.double({ min: 0.5, max: 5, noNaN: true }),
+        fc.double({ min: 0.1, max: 3, noNaN: true }),
+        fc.double({ min: 0.1, max: 4, noNaN: true }),
+        fc.double({ min: 0.3, max: 5, noNaN: true }),
+        (tau, theta, kc, ti) => {
+          const plant = { type: "fopdt", gain: 1, timeConstant: tau, deadTime: theta } as const;
+          const controller = { gains: { form: "standard", kc, ti, td: 0 } as const };
+          const h = theta / 10;
+          const verdict = assessClosedLoopStability({ plant, controller, samplePeriod: h });
+          const run = simulateClosedLoop({ plant, controller, samplePeriod: h, duration: 400 * (tau + theta) });
+          const tail = run.y.slice(-Math.floor(run.y.length / 10)).map((v) => Math.abs(v - 1));
+          const settled = run.divergedAt === null && Math.max(...tail) < 1e-3;
+          const growing = run.divergedAt !== null || Math.max(...tail) > 1;
+          if (settled) expect(verdict.stable).toBe(true);
+          if (growing) expect(verdict.stable).toBe(false);
+        },
+      ),
+      { numRuns: 40 },
+    );
+  });
+
+  it("counts the poles of a sampled loop with a long delay line", () => {
+    // Derived: integrator 1/s with θ = 50 s at h = 0.01 (5000 samples): Ku = π/(2θ) = 0.0314.
+    const plant = { type: "ipdt", gain: 1, deadTime: 50 } as const;
+    const at = (kp: number) => assessClosedLoopStability({ plant, controller: { gains: { form: "parallel", kp, ki: 0, kd: 0 } }, samplePeriod: 0.01 });
+    expect(at(0.03).stable).toBe(true);
+    expect(at(0.033).stable).toBe(false);
   });
 });

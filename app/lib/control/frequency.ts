@@ -11,7 +11,9 @@
  * and refined by bisection. With several crossovers: the gain margin is the smallest one
  * (1/largest |L| where L crosses the negative real axis), the phase margin the smallest one
  * over all gain crossovers, and the delay margin the smallest PMᵢ/ωcᵢ (0 when some PMᵢ ≤ 0).
- * All crossovers are listed too. A conditionally stable loop can thus report GM < 1.
+ * All crossovers are listed too. A conditionally stable loop can thus report GM < 1, which
+ * is why stability is decided from the closed-loop poles (./stability.ts), never from the
+ * margins; Ms is given only for a stable loop (for an unstable one it means nothing).
  */
 import { ControlInputError, requirePositive } from "./errors";
 import { toParallelGains, type PidGains } from "./forms";
@@ -24,6 +26,7 @@ import {
   type PlantModel,
 } from "./plant";
 import { findPolynomialRoots, type Complex } from "./polynomial";
+import { assessClosedLoopStability } from "./stability";
 
 export interface LoopSpec {
   plant: PlantModel;
@@ -49,14 +52,17 @@ export interface Crossover {
 }
 
 export interface StabilityMargins {
+  /** From the closed-loop poles (./stability.ts). */
+  stable: boolean;
   gainMargin: number | null;
   phaseCrossoverFrequency: number | null;
   phaseMargin: number | null;
   gainCrossoverFrequency: number | null;
   /** Seconds of extra loop delay the loop tolerates; null without a gain crossover. */
   delayMargin: number | null;
-  peakSensitivity: number;
-  peakSensitivityFrequency: number;
+  /** max |1/(1 + L)|; null when the loop is unstable. */
+  peakSensitivity: number | null;
+  peakSensitivityFrequency: number | null;
   phaseCrossovers: Crossover[];
   gainCrossovers: Crossover[];
   /** Frequency range searched (rad/s). */
@@ -204,6 +210,23 @@ function bisectFrequency(f: (w: number) => number, lo: number, hi: number): numb
 }
 
 export function computeMargins(loop: LoopSpec): StabilityMargins {
+  // The verdict first: it refuses what it cannot judge before the longer frequency sweep.
+  const { stable } = assessClosedLoopStability(loop);
+  const margins = sweepMargins(loop);
+  return {
+    ...margins,
+    stable,
+    peakSensitivity: stable ? margins.peakSensitivity : null,
+    peakSensitivityFrequency: stable ? margins.peakSensitivityFrequency : null,
+  };
+}
+
+type SweptMargins = Omit<StabilityMargins, "stable" | "peakSensitivity" | "peakSensitivityFrequency"> & {
+  peakSensitivity: number;
+  peakSensitivityFrequency: number;
+};
+
+function sweepMargins(loop: LoopSpec): SweptMargins {
   const evaluator = createLoopEvaluator(loop);
   const grid = buildGrid(evaluator);
   const values = grid.map((w) => evaluator.evaluate(w));
@@ -317,7 +340,7 @@ export function computeMargins(loop: LoopSpec): StabilityMargins {
  * −180°.
  */
 export function computeUltimatePoint(plant: PlantModel, samplePeriod?: number): UltimatePoint | null {
-  const margins = computeMargins({ plant, samplePeriod });
+  const margins = sweepMargins({ plant, samplePeriod });
   if (margins.gainMargin === null || margins.phaseCrossoverFrequency === null) return null;
   return {
     ultimateGain: margins.gainMargin,

@@ -126,3 +126,34 @@ describe("step-test validation", () => {
     expect(() => identifyTwoPoint({ ...good, u: good.u.map(() => 0) }, "smith")).toThrow(/no step/);
   });
 });
+
+describe("two-point methods on noisy data (issue 8, defect 9)", () => {
+  // Input: FOPDT K=1, τ=10, θ=2, step at t = 5 s, h = 0.1 s, 105 s, Gaussian noise σ = 0.1
+  // (10 % of the step), seeds 1–5. Expected: the model itself, τ = 10, θ = 2 (Smith's rounded
+  // constants give 10.0049, 1.9918 on exact data: REFERENCES.md "Identification on noisy
+  // data"), within the spread the noise leaves after smoothing: τ within 20 %, θ within
+  // 0.8 s (the least-squares fit itself lands 0.2 s off θ on seed 2). Reading the raw first crossing gave τ from 4.4 to 12.5 and θ from 0 to 3.5 on
+  // these seeds.
+  const noisy = (seed: number) => {
+    const random = createRandomSource(seed);
+    const t: number[] = [];
+    const u: number[] = [];
+    const y: number[] = [];
+    for (let k = 0; k <= 1050; k++) {
+      const time = k * 0.1;
+      const since = time - 5;
+      t.push(time);
+      u.push(since >= 0 ? 1 : 0);
+      y.push((since > 2 ? 1 - Math.exp(-(since - 2) / 10) : 0) + 0.1 * random.nextNormal());
+    }
+    return { t, u, y };
+  };
+
+  it.each([1, 2, 3, 4, 5])("Smith and Sundaresan–Krishnaswamy land near τ = 10, θ = 2 (seed %i)", (seed) => {
+    for (const method of ["smith", "sundaresan-krishnaswamy"] as const) {
+      const { model } = identifyTwoPoint(noisy(seed), method);
+      expect(Math.abs(model.timeConstant - 10)).toBeLessThan(2);
+      expect(Math.abs(model.deadTime - 2)).toBeLessThan(0.8);
+    }
+  });
+});

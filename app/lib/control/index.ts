@@ -6,6 +6,7 @@ export {
   describeGainForms,
   parallelToStandard,
   seriesToStandard,
+  checkGainSigns,
   standardToParallel,
   standardToSeries,
   toParallelGains,
@@ -73,6 +74,7 @@ export {
   type StabilityMargins,
   type UltimatePoint,
 } from "./frequency";
+export { assessClosedLoopStability, type StabilityLoop, type StabilityVerdict } from "./stability";
 export {
   CONTROLLER_TYPES,
   TUNING_RULES,

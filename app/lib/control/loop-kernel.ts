@@ -4,7 +4,10 @@
  * + `createPlantSimulator` do sample by sample (same update order, same coefficients from
  * `resolvePidCoefficients`), but without a call or an object read per sample, which is what
  * lets a long simulation run at the speed of compiled code. `simulate.test.ts` checks that
- * both paths agree.
+ * both paths agree (a property test over random plants, gains, limits and schedules).
+ *
+ * The loop stops at the first sample whose y or u is not finite (a diverging loop);
+ * `divergedAt` is that sample's number, and the outputs hold only the samples before it.
  */
 import type { OutputLimits } from "./pid";
 import type { DiscretePlant } from "./plant";
@@ -32,10 +35,16 @@ export interface KernelTotals {
   held: number;
   lastY: number;
   sumY: number;
+  /** Samples run: `samples`, or the first non-finite sample when the loop diverged. */
+  completed: number;
+  /** The first sample with a non-finite y or u; null when the run completed. */
+  divergedAt: number | null;
 }
 
-function startSamples(times: Float64Array, h: number): Int32Array {
-  const out = new Int32Array(times.length);
+// Sample numbers as doubles: a change far beyond the run (2.2e6 s at h = 1 ms) is a sample
+// number past 2³¹, which an Int32Array would wrap to a negative number, i.e. to t = 0.
+function startSamples(times: Float64Array, h: number): Float64Array {
+  const out = new Float64Array(times.length);
   for (let i = 0; i < times.length; i++) {
     let k = Math.max(0, Math.ceil(times[i] / h - 1e-9));
     // Guard the rounding of the division against the stepper's k·h ≤ time + 1e-9·h test.
@@ -70,7 +79,9 @@ export function runFirstOrderLoop(
   const gLate = plant.gammaLate[0];
   const c = plant.c[0];
   const dd = plant.d;
-  const m = plant.delaySamples;
+  // A delay longer than the run only ever reads the line's initial zeros, so the line is
+  // never made longer than the run (θ/h can be 10⁹; the run's length is bounded).
+  const m = Math.min(plant.delaySamples, samples);
   const length = m + 2;
   const history = new Float64Array(length);
   const kp = coefficients[0];
@@ -116,10 +127,11 @@ export function runFirstOrderLoop(
   let held = 0;
   let yk = 0;
   let sumY = 0;
+  let divergedAt: number | null = null;
 
   // Run in segments between schedule changes so the inner loop has no schedule checks.
   let k = 0;
-  while (k < samples) {
+  run: while (k < samples) {
     while (spIndex < spCount && spStart[spIndex] <= k) spValue = spValues[spIndex++];
     while (loadIndex < loadCount && loadStart[loadIndex] <= k) loadValue = loadValues[loadIndex++];
     let end = samples;
@@ -131,9 +143,8 @@ export function runFirstOrderLoop(
       // Plant output: history[head − m − 1] holds u[k−m−1].
       let idx = head - m - 1;
       if (idx < 0) idx += length;
-      yk = c * x + dd * history[idx];
-      sumY += yk;
-      const measured = noiseStd > 0 ? yk + noiseStd * noise!.source.nextNormal() : yk;
+      const yNow = c * x + dd * history[idx];
+      const measured = noiseStd > 0 ? yNow + noiseStd * noise!.source.nextNormal() : yNow;
 
       // Controller, in the order documented in ./pid.ts.
       if (first) {
@@ -141,20 +152,34 @@ export function runFirstOrderLoop(
         first = false;
       }
       const d = ad * derivative - bd * (measured - yPrev);
-      const v = kp * (b * spValue - measured) + integral + d;
+      const p = kp * (b * spValue - measured);
+      const v = p + integral + d;
       const high = v > uMax;
       const low = v < uMin;
       const u = high ? uMax : low ? uMin : v;
+      // (a + b)·0 is 0 only when both are finite: one multiply finds a diverged loop.
+      if ((yNow + u) * 0 !== 0) {
+        divergedAt = k;
+        break run;
+      }
+      yk = yNow;
+      sumY += yk;
       const e = spValue - measured;
       const push = ki * e;
       let isHeld = clamp && ((high && push > 0) || (low && push < 0));
       let next = integral + (isHeld ? 0 : kih * e) + track * (u - v);
-      if (next > iMax) {
-        next = iMax;
-        isHeld = true;
-      } else if (next < iMin) {
-        next = iMin;
-        isHeld = true;
+      // The widened bound contains [iMin, iMax], so inside that range nothing is to do.
+      if (next > iMax || next < iMin) {
+        const pd = p + d;
+        const hi = pd < 0 ? iMax - pd : iMax;
+        const lo = pd > 0 ? iMin - pd : iMin;
+        if (next > hi) {
+          next = hi;
+          isHeld = true;
+        } else if (next < lo) {
+          next = lo;
+          isHeld = true;
+        }
       }
       integral = next;
       derivative = d;
@@ -192,5 +217,5 @@ export function runFirstOrderLoop(
       itae += time * absErr * h;
     }
   }
-  return { iae, ise, itae, peakAbsControl: peak, saturated, held, lastY: yk, sumY };
+  return { iae, ise, itae, peakAbsControl: peak, saturated, held, lastY: yk, sumY, completed: k, divergedAt };
 }

@@ -10,11 +10,22 @@
  *   4. integrator, after the output has been computed (forward Euler):
  *        none              I += ki·h·e
  *        clamp             I += ki·h·e unless v is past a limit and ki·e pushes further
- *        back-calculation  I += ki·h·e + (h/Tt)·(u − v)
- *      then, unless anti-windup is "none", the integrator state is held inside the limits
- *      derived from the output range (see deriveIntegratorLimits).
+ *        back-calculation  I += ki·h·e + g·(u − v),  g = min(1, h/Tt)
+ *      then, unless anti-windup is "none", the integrator state is held inside the output
+ *      range (see deriveIntegratorLimits) widened by whatever P + D currently takes off it:
+ *        I ∈ [min(uMin, uMin − P − D), max(uMax, uMax − P − D)]
  * with e = r − y (unweighted: the integral must drive y to r whatever b is).
  * In standard form ad = Td/(Td + N·h) and bd = Kc·N·ad, which is the same thing.
+ *
+ * Why the widening: with b < 1 the steady state needs I = u* − P with P = kp(b·r − y) ≠ 0,
+ * which can lie outside the output range although u* lies inside it (b = 0, r = 0.8,
+ * Kc = 2 needs I = 2.4 for u = 0.8 in [0, 1]). Bounding I by the output range alone then
+ * parks y short of r. The widened bound still never lets I push v past a limit by itself.
+ *
+ * Why g = min(1, h/Tt): while saturated, back-calculation moves the integrator towards the
+ * value I* that puts v on the limit as I⁺ − I* = (1 − h/Tt)(I − I*); for h/Tt > 1 that
+ * overshoots and for h/Tt > 2 it diverges. Bounding the gain at 1 (dead-beat tracking) keeps
+ * it monotone for every h/Tt; the default Tt is never below h, so defaults stay at h/Tt ≤ 1.
  */
 import { ControlInputError, requireFinite, requireNonNegative, requirePositive } from "./errors";
 import { toParallelGains, type ParallelGains, type PidGains } from "./forms";
@@ -47,7 +58,7 @@ export interface PidControllerConfig {
   outputLimits?: OutputLimits;
   /** Default "clamp". */
   antiWindup?: AntiWindupMode;
-  /** Back-calculation tracking time Tt (s); default √(Ti·Td) for PID, Ti for PI. */
+  /** Back-calculation tracking time Tt (s); default √(Ti·Td) for PID, Ti for PI, never below h. */
   trackingTime?: number;
   /** Default "before". */
   integralPlacement?: IntegralPlacement;
@@ -60,6 +71,13 @@ export interface PidStepper {
   /** One sample: set point r and measurement y in, controller output u out. */
   step(r: number, y: number): number;
   reset(initialIntegral?: number): void;
+  /**
+   * Bumpless gain change: switch to new gains and move the integral so that the unlimited
+   * output at the last set point and measurement is unchanged (Åström & Hägglund 1995,
+   * "bumpless parameter changes"; see REFERENCES.md). Limits, filter N and the other
+   * settings stay as configured.
+   */
+  setGains(gains: PidGains): void;
   /** Output of the last step (after limits). */
   readonly u: number;
   /** Unlimited output v of the last step. */
@@ -115,12 +133,15 @@ export function resolveDerivativeFilterTime(gains: ParallelGains, filter: Deriva
   return gains.kd / gains.kp / f.n;
 }
 
-/** Tt default: √(Ti·Td) = √(kd/ki) with derivative action, Ti = kp/ki without. */
-export function resolveTrackingTime(gains: ParallelGains, trackingTime: number | undefined): number {
+/**
+ * Tt default: √(Ti·Td) = √(kd/ki) with derivative action, Ti = kp/ki without, and never
+ * below the sample period h (a shorter Tt cannot be tracked in one sample anyway).
+ */
+export function resolveTrackingTime(gains: ParallelGains, trackingTime: number | undefined, samplePeriod = 0): number {
   if (trackingTime !== undefined) return requirePositive("trackingTime", trackingTime);
   if (gains.ki === 0) return Infinity;
-  if (gains.kd !== 0 && Math.sign(gains.kd) === Math.sign(gains.ki)) return Math.sqrt(gains.kd / gains.ki);
-  if (gains.kp !== 0 && Math.sign(gains.kp) === Math.sign(gains.ki)) return gains.kp / gains.ki;
+  if (gains.kd !== 0 && Math.sign(gains.kd) === Math.sign(gains.ki)) return Math.max(Math.sqrt(gains.kd / gains.ki), samplePeriod);
+  if (gains.kp !== 0 && Math.sign(gains.kp) === Math.sign(gains.ki)) return Math.max(gains.kp / gains.ki, samplePeriod);
   throw new ControlInputError("trackingTime", "is required when Ti is undefined (kp is zero)");
 }
 
@@ -128,9 +149,9 @@ export function resolveTrackingTime(gains: ParallelGains, trackingTime: number |
 // reads and writes raw doubles, and step() is kept small and branch-light so the JIT inlines
 // it into the caller's loop (a call that is not inlined boxes its double arguments).
 // Slots are literal numbers: a named module constant costs a context load per access.
-//   k: 0 kp, 1 ki, 2 ki·h, 3 b, 4 ad, 5 bd, 6 uMin, 7 uMax, 8 h/Tt (0 unless back-calculation),
-//      9 integral min, 10 integral max, 11 clamping on (1) / off (0)
-//   s: 0 integral I, 1 derivative D, 2 previous y, 3 u, 4 v
+//   k: 0 kp, 1 ki, 2 ki·h, 3 b, 4 ad, 5 bd, 6 uMin, 7 uMax, 8 min(1, h/Tt) (0 unless
+//      back-calculation), 9 integral min, 10 integral max, 11 clamping on (1) / off (0)
+//   s: 0 integral I, 1 derivative D, 2 previous y, 3 u, 4 v, 5 previous r
 
 /**
  * The controller's coefficients in the slot layout above, validated. Shared by the stepper
@@ -156,7 +177,7 @@ export function resolvePidCoefficients(config: PidControllerConfig): { gains: Pa
     throw new ControlInputError("antiWindup", "must be none, clamp or back-calculation");
   }
   k[11] = mode === "clamp" ? 1 : 0;
-  k[8] = mode === "back-calculation" && gains.ki !== 0 ? h / resolveTrackingTime(gains, config.trackingTime) : 0;
+  k[8] = mode === "back-calculation" && gains.ki !== 0 ? Math.min(1, h / resolveTrackingTime(gains, config.trackingTime, h)) : 0;
   const placement = config.integralPlacement ?? "before";
   if (placement !== "before" && placement !== "after") {
     throw new ControlInputError("integralPlacement", "must be before or after");
@@ -176,22 +197,45 @@ export function resolvePidCoefficients(config: PidControllerConfig): { gains: Pa
 }
 
 class PidController implements PidStepper {
-  readonly gains: Readonly<ParallelGains>;
+  gains: Readonly<ParallelGains>;
   saturatedHigh = false;
   saturatedLow = false;
   integratorHeld = false;
 
   private readonly k = new Float64Array(12);
-  private readonly s = new Float64Array(5);
-  private readonly after: boolean;
+  private readonly s = new Float64Array(6);
+  private readonly config: PidControllerConfig;
+  private after: boolean;
   private first = true;
 
   constructor(config: PidControllerConfig) {
     const resolved = resolvePidCoefficients(config);
+    this.config = config;
     this.gains = Object.freeze(resolved.gains);
     this.k.set(resolved.k);
     this.after = resolved.after;
     this.reset(config.initialIntegral ?? 0);
+  }
+
+  setGains(gains: PidGains): void {
+    const resolved = resolvePidCoefficients({ ...this.config, gains });
+    const k = this.k;
+    const s = this.s;
+    if (!this.first) {
+      // Keep v = P + I + D at the last r and y: the derivative state is rescaled to the new
+      // kd (it is kd times a filtered slope), the integral takes up the rest.
+      const r = s[5];
+      const y = s[2];
+      const n = resolved.k;
+      const dNew = this.gains.kd !== 0 ? (s[1] * resolved.gains.kd) / this.gains.kd : 0;
+      const pOld = k[0] * (k[3] * r - y);
+      const pNew = n[0] * (n[3] * r - y);
+      s[0] = s[0] + pOld + s[1] - pNew - dNew;
+      s[1] = dNew;
+    }
+    k.set(resolved.k);
+    this.gains = Object.freeze(resolved.gains);
+    this.after = resolved.after;
   }
 
   get u(): number {
@@ -229,7 +273,8 @@ class PidController implements PidStepper {
       this.first = false;
     }
     const d = k[4] * s[1] - k[5] * (y - s[2]);
-    const v = k[0] * (k[3] * r - y) + s[0] + d;
+    const p = k[0] * (k[3] * r - y);
+    const v = p + s[0] + d;
     const uMax = k[7];
     const uMin = k[6];
     const high = v > uMax;
@@ -241,18 +286,25 @@ class PidController implements PidStepper {
     let held = k[11] === 1 && ((high && push > 0) || (low && push < 0));
     // Back-calculation term is zero in the other modes (k[8] = 0).
     let integral = s[0] + (held ? 0 : k[2] * e) + k[8] * (u - v);
-    if (integral > k[10]) {
-      integral = k[10];
-      held = true;
-    } else if (integral < k[9]) {
-      integral = k[9];
-      held = true;
+    // The output range, widened by what P + D takes off it (see the header).
+    if (integral > k[10] || integral < k[9]) {
+      const pd = p + d;
+      const iMax = pd < 0 ? k[10] - pd : k[10];
+      const iMin = pd > 0 ? k[9] - pd : k[9];
+      if (integral > iMax) {
+        integral = iMax;
+        held = true;
+      } else if (integral < iMin) {
+        integral = iMin;
+        held = true;
+      }
     }
     s[0] = integral;
     s[1] = d;
     s[2] = y;
     s[3] = u;
     s[4] = v;
+    s[5] = r;
     this.saturatedHigh = high;
     this.saturatedLow = low;
     this.integratorHeld = held;

@@ -219,6 +219,12 @@ export interface PlantSimulator {
   advance(u: number): void;
   /** Back to rest with the delay line full of `input` (default 0). */
   reset(input?: number): void;
+  /**
+   * Go on with new coefficients (an aged or re-identified plant) without a jump: the output
+   * and the inputs in the delay line are kept. First-order plants only (their state is
+   * rescaled so y is unchanged); the sample period and whole samples of delay must match.
+   */
+  changeModel(discrete: DiscretePlant): void;
   readonly discrete: DiscretePlant;
 }
 
@@ -230,16 +236,16 @@ export interface PlantSimulator {
  * millions of times, and small methods are what the JIT inlines into the caller's loop.
  */
 class FirstOrderPlantSimulator implements PlantSimulator {
-  readonly discrete: DiscretePlant;
+  discrete: DiscretePlant;
   private readonly k = new Float64Array(6);
   private readonly history: Float64Array;
   private readonly length: number;
   private readonly m: number;
   private head = 0;
 
-  constructor(discrete: DiscretePlant, input: number) {
+  constructor(discrete: DiscretePlant, input: number, horizon: number) {
     this.discrete = discrete;
-    this.m = discrete.delaySamples;
+    this.m = Math.min(discrete.delaySamples, horizon);
     this.length = this.m + 2;
     this.history = new Float64Array(this.length);
     this.k[1] = discrete.phi[0];
@@ -255,6 +261,20 @@ class FirstOrderPlantSimulator implements PlantSimulator {
     this.k[0] = 0;
     this.history.fill(input);
     this.head = 0;
+  }
+
+  changeModel(discrete: DiscretePlant): void {
+    checkSameShape(this.discrete, discrete);
+    const k = this.k;
+    // y = C·x + D·u_old: keep C·x (the part that is the state) across the change.
+    const cx = k[4] * k[0];
+    k[1] = discrete.phi[0];
+    k[2] = discrete.gammaEarly[0];
+    k[3] = discrete.gammaLate[0];
+    k[4] = discrete.c[0];
+    k[5] = discrete.d;
+    k[0] = k[4] === 0 ? 0 : cx / k[4];
+    this.discrete = discrete;
   }
 
   output(): number {
@@ -289,12 +309,12 @@ class DiscretePlantSimulator implements PlantSimulator {
   private readonly m: number;
   private head = 0;
 
-  constructor(discrete: DiscretePlant, input: number) {
+  constructor(discrete: DiscretePlant, input: number, horizon: number) {
     this.discrete = discrete;
     this.n = discrete.order;
     this.x = new Float64Array(this.n);
     this.xNext = new Float64Array(this.n);
-    this.m = discrete.delaySamples;
+    this.m = Math.min(discrete.delaySamples, horizon);
     this.length = this.m + 2;
     this.history = new Float64Array(this.length);
     this.reset(input);
@@ -305,6 +325,11 @@ class DiscretePlantSimulator implements PlantSimulator {
     this.x.fill(0);
     this.history.fill(input);
     this.head = 0;
+  }
+
+  changeModel(): void {
+    // A higher-order state in canonical form has no physical meaning to carry across.
+    throw new ControlInputError("plant", "only a first-order plant can change its model while running");
   }
 
   output(): number {
@@ -340,11 +365,23 @@ class DiscretePlantSimulator implements PlantSimulator {
   }
 }
 
-/** A plant simulator at rest, its delay line filled with `initialInput` (default 0). */
-export function createPlantSimulator(discrete: DiscretePlant, initialInput = 0): PlantSimulator {
+function checkSameShape(current: DiscretePlant, next: DiscretePlant): void {
+  if (next.order !== current.order) throw new ControlInputError("plant", "must keep its order");
+  if (next.samplePeriod !== current.samplePeriod) throw new ControlInputError("samplePeriod", "must not change");
+  if (next.delaySamples !== current.delaySamples) throw new ControlInputError("plant.deadTime", "must keep its whole samples of delay");
+}
+
+/**
+ * A plant simulator at rest, its delay line filled with `initialInput` (default 0). Give
+ * `horizon`, the number of samples it will run, when it is known: a dead time longer than
+ * that only ever delivers the initial input, so the delay line is not made longer (θ/h may
+ * be 10⁹, which would otherwise allocate gigabytes).
+ */
+export function createPlantSimulator(discrete: DiscretePlant, initialInput = 0, horizon = Infinity): PlantSimulator {
+  if (!(horizon >= 0)) throw new ControlInputError("horizon", "must be a number of samples");
   return discrete.order === 1
-    ? new FirstOrderPlantSimulator(discrete, initialInput)
-    : new DiscretePlantSimulator(discrete, initialInput);
+    ? new FirstOrderPlantSimulator(discrete, initialInput, horizon)
+    : new DiscretePlantSimulator(discrete, initialInput, horizon);
 }
 
 /** P(jω) of the continuous plant including e^{−jωθ}. */

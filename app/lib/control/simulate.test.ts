@@ -149,41 +149,61 @@ describe("closed-loop simulation", () => {
 });
 
 describe("fused first-order kernel", () => {
-  // The kernel (./loop-kernel.ts) must be the stepper's arithmetic, sample for sample.
+  // The kernel (./loop-kernel.ts) must be the stepper's arithmetic, sample for sample, on
+  // every input: random plants (either sign of gain), gains, output and actuator limits,
+  // anti-windup modes, b in [0, 1], noise, and set-point and load schedules whose steps may
+  // lie far beyond the run (sample numbers past 2³¹ included). Diverging loops must stop on
+  // the same sample.
+  const step = (horizon: number) =>
+    fc.record({
+      time: fc.oneof(fc.double({ min: 0, max: 3 * horizon, noNaN: true }), fc.double({ min: 1e6, max: 1e12, noNaN: true })),
+      value: fc.double({ min: -5, max: 5, noNaN: true }),
+    });
   it("matches the sample-by-sample stepper for random first-order loops (property)", () => {
     fc.assert(
       fc.property(
         fc.record({
           plantType: fc.constantFrom("fopdt", "ipdt"),
           gain: fc.double({ min: 0.2, max: 5, noNaN: true }),
+          negative: fc.boolean(),
           tau: fc.double({ min: 0.5, max: 20, noNaN: true }),
           theta: fc.double({ min: 0, max: 3, noNaN: true }),
-          kc: fc.double({ min: 0.05, max: 2, noNaN: true }),
-          ti: fc.double({ min: 0.5, max: 30, noNaN: true }),
+          kc: fc.double({ min: 0.05, max: 8, noNaN: true }),
+          ti: fc.double({ min: 0.1, max: 30, noNaN: true }),
           td: fc.double({ min: 0, max: 2, noNaN: true }),
           mode: fc.constantFrom("none", "clamp", "back-calculation"),
           b: fc.double({ min: 0, max: 1, noNaN: true }),
+          limits: fc.option(fc.tuple(fc.double({ min: -3, max: 0, noNaN: true }), fc.double({ min: 0.01, max: 3, noNaN: true }))),
+          actuator: fc.option(fc.tuple(fc.double({ min: -3, max: 0, noNaN: true }), fc.double({ min: 0.01, max: 3, noNaN: true }))),
+          h: fc.double({ min: 0.01, max: 0.5, noNaN: true }),
+          setpoint: fc.array(step(40), { maxLength: 4 }),
+          load: fc.array(step(40), { maxLength: 3 }),
           noise: fc.boolean(),
         }),
         (p) => {
+          const gain = p.negative ? -p.gain : p.gain;
           const options = {
             plant: p.plantType === "fopdt"
-              ? ({ type: "fopdt", gain: p.gain, timeConstant: p.tau, deadTime: p.theta } as const)
-              : ({ type: "ipdt", gain: p.gain / p.tau, deadTime: p.theta } as const),
+              ? ({ type: "fopdt", gain, timeConstant: p.tau, deadTime: p.theta } as const)
+              : ({ type: "ipdt", gain: gain / p.tau, deadTime: p.theta } as const),
             controller: {
-              gains: { form: "standard", kc: p.kc, ti: p.ti, td: p.td } as const,
-              outputLimits: { min: -1.5, max: 1.5 },
+              gains: { form: "standard", kc: p.negative ? -p.kc : p.kc, ti: p.ti, td: p.td } as const,
+              outputLimits: p.limits ? { min: p.limits[0], max: p.limits[1] } : undefined,
               antiWindup: p.mode,
               setpointWeight: p.b,
             },
-            samplePeriod: 0.1,
+            actuatorLimits: p.actuator ? { min: p.actuator[0], max: p.actuator[1] } : undefined,
+            samplePeriod: p.h,
             duration: 40,
-            setpoint: [{ time: 0, value: 1 }, { time: 25, value: -0.5 }],
-            loadDisturbance: [{ time: 12, value: 0.3 }],
+            setpoint: p.setpoint,
+            loadDisturbance: p.load,
             noise: p.noise ? { standardDeviation: 0.01, seed: 7 } : undefined,
           };
           const fast = simulateClosedLoop(options);
           const slow = simulateClosedLoop({ ...options, forceStepper: true });
+          expect(fast.divergedAt).toBe(slow.divergedAt);
+          expect(fast.y.length).toBe(slow.y.length);
+          expect(fast.r).toEqual(slow.r);
           for (let k = 0; k < slow.y.length; k++) {
             expect(Math.abs(fast.y[k] - slow.y[k])).toBeLessThanOrEqual(1e-12 * Math.max(1, Math.abs(slow.y[k])));
             expect(Math.abs(fast.u[k] - slow.u[k])).toBeLessThanOrEqual(1e-12 * Math.max(1, Math.abs(slow.u[k])));
@@ -193,5 +213,64 @@ describe("fused first-order kernel", () => {
       ),
       { numRuns: 60 },
     );
+  });
+
+  it("applies a far-future set-point step after the run, not at t = 0 (issue 8, defect 4)", () => {
+    // Input: FOPDT K=1, τ=1; PI (1, 1); h = 0.001; 5 s; set point [{0, 1}, {2.2e6, 5}].
+    // Derived: the second step is at sample 2.2e9 > 2³¹ − 1, long after the 5001 samples, so
+    // r = 1 throughout on both paths (the kernel used to wrap the sample number and start at 5).
+    const options = {
+      plant: { type: "fopdt", gain: 1, timeConstant: 1, deadTime: 0 } as const,
+      controller: { gains: { form: "standard", kc: 1, ti: 1, td: 0 } as const },
+      samplePeriod: 0.001,
+      duration: 5,
+      setpoint: [{ time: 0, value: 1 }, { time: 2.2e6, value: 5 }],
+    };
+    for (const forceStepper of [false, true]) {
+      const { r } = simulateClosedLoop({ ...options, forceStepper });
+      expect(r[0]).toBe(1);
+      expect(r.every((v) => v === 1)).toBe(true);
+    }
+  });
+});
+
+describe("dead time longer than the run (issue 8, defect 5)", () => {
+  // Input: SOPDT θ = 5e5 s at h = 0.01 (θ/h = 5e7) for a 3-sample run; and θ/h = 1e9.
+  // Derived: the input reaches the output only after θ, so y = 0 on every sample; the delay
+  // line is never longer than the run, so neither allocates more than a few doubles (the old
+  // line took 5e7 doubles, 400 MB, and 1e9 doubles, 8 GB).
+  it.each([
+    { type: "sopdt", gain: 1, timeConstant: 1, timeConstant2: 2, deadTime: 5e5 } as const,
+    { type: "fopdt", gain: 1, timeConstant: 1, deadTime: 1e7 } as const,
+  ])("runs in small memory for $type", (plant) => {
+    const before = process.memoryUsage().arrayBuffers;
+    const res = simulateClosedLoop({ plant, controller: pi, samplePeriod: 0.01, duration: 0.02 });
+    expect(res.y).toEqual([0, 0, 0]);
+    expect(process.memoryUsage().arrayBuffers - before).toBeLessThan(10e6);
+  });
+});
+
+describe("diverging loop (issue 8, defect 6)", () => {
+  // Input: FOPDT (1, 1, 1) with parallel PI kp = 5, ki = 1, h = 0.01, 2000 s. Derived: the
+  // loop is unstable (kp = 5 > Ku ≈ 2.26 for θ = τ = 1) and grows until it overflows. Running
+  // the same arithmetic without the stop, u is first non-finite at sample 110 060 and y at
+  // 110 161 (the sample the issue reports); the run stops at the first of them, t = 1100.60 s.
+  it("stops at the first non-finite sample and says when, on both paths", () => {
+    for (const forceStepper of [false, true]) {
+      const res = simulateClosedLoop({
+        plant: { type: "fopdt", gain: 1, timeConstant: 1, deadTime: 1 },
+        controller: { gains: { form: "parallel", kp: 5, ki: 1, kd: 0 } },
+        samplePeriod: 0.01,
+        duration: 2000,
+        forceStepper,
+      });
+      expect(res.divergedAt).toBeCloseTo(1100.6, 9);
+      expect(res.y.length).toBe(110_060);
+      expect(res.y.every(Number.isFinite) && res.u.every(Number.isFinite)).toBe(true);
+    }
+  });
+
+  it("a stable run reports no divergence", () => {
+    expect(simulateClosedLoop({ plant, controller: pi, samplePeriod: 0.1, duration: 10 }).divergedAt).toBeNull();
   });
 });

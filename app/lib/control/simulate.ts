@@ -6,6 +6,8 @@
  *   u[k] = controller.step(r[k], y[k] + noise[k])
  *   the plant advances one sample with sat_actuator(u[k] + load[k])
  * The plant starts at rest at y = 0 with zero input, so set points and loads are deviations.
+ * A run stops at the first sample whose y or u is not finite: the result then holds the
+ * samples before it and `divergedAt` says when (the metrics cover those samples only).
  */
 import { ControlInputError, requireFinite, requireNonNegative, requirePositive } from "./errors";
 import { runFirstOrderLoop, scheduleFrom } from "./loop-kernel";
@@ -63,6 +65,8 @@ export interface ClosedLoopResult {
   y: number[];
   u: number[];
   metrics: LoopMetrics;
+  /** Time (s) of the first sample with a non-finite y or u; null when the run completed. */
+  divergedAt: number | null;
 }
 
 function checkSteps(field: string, steps: ValueStep[] | undefined): ValueStep[] {
@@ -91,7 +95,7 @@ export function simulateClosedLoop(options: ClosedLoopOptions): ClosedLoopResult
   if (discrete.order === 1 && !options.forceStepper) {
     return simulateFirstOrder(discrete, controllerConfig, samples, setpoint, load, actuator, noiseStd, random);
   }
-  const plant = createPlantSimulator(discrete);
+  const plant = createPlantSimulator(discrete, 0, samples);
   const controller = createPidController(controllerConfig);
 
   const t = new Array<number>(samples);
@@ -108,6 +112,7 @@ export function simulateClosedLoop(options: ClosedLoopOptions): ClosedLoopResult
   let iae = 0;
   let ise = 0;
   let itae = 0;
+  let completed = samples;
   // A small tolerance so a step at t = 10 s lands on sample 100 despite rounding of k·h.
   const eps = 1e-9 * h;
   for (let k = 0; k < samples; k++) {
@@ -117,6 +122,10 @@ export function simulateClosedLoop(options: ClosedLoopOptions): ClosedLoopResult
     const yk = plant.output();
     const measured = noiseStd > 0 ? yk + noiseStd * random.nextNormal() : yk;
     const uk = controller.step(spValue, measured);
+    if (!Number.isFinite(yk) || !Number.isFinite(uk)) {
+      completed = k;
+      break;
+    }
     let plantInput = uk + loadValue;
     let clipped = false;
     if (plantInput > actuator.max) {
@@ -140,6 +149,7 @@ export function simulateClosedLoop(options: ClosedLoopOptions): ClosedLoopResult
     ise += e * e * h;
     itae += time * Math.abs(e) * h;
   }
+  truncate(completed, t, r, y, u);
   const stepMetrics = computeSetpointStepMetrics(t, r, y);
   return {
     t,
@@ -152,10 +162,15 @@ export function simulateClosedLoop(options: ClosedLoopOptions): ClosedLoopResult
       ise,
       itae,
       peakAbsControl,
-      saturatedFraction: saturated / samples,
-      integratorHeldFraction: held / samples,
+      saturatedFraction: saturated / Math.max(1, completed),
+      integratorHeldFraction: held / Math.max(1, completed),
     },
+    divergedAt: completed < samples ? completed * h : null,
   };
+}
+
+function truncate(length: number, ...series: number[][]): void {
+  for (const s of series) s.length = length;
 }
 
 function simulateFirstOrder(
@@ -182,6 +197,8 @@ function simulateFirstOrder(
     noiseStd > 0 ? { standardDeviation: noiseStd, source: random } : null,
     { t, r, y, u },
   );
+  const completed = totals.completed;
+  truncate(completed, t, r, y, u);
   return {
     t,
     r,
@@ -193,9 +210,10 @@ function simulateFirstOrder(
       ise: totals.ise,
       itae: totals.itae,
       peakAbsControl: totals.peakAbsControl,
-      saturatedFraction: totals.saturated / samples,
-      integratorHeldFraction: totals.held / samples,
+      saturatedFraction: totals.saturated / Math.max(1, completed),
+      integratorHeldFraction: totals.held / Math.max(1, completed),
     },
+    divergedAt: totals.divergedAt === null ? null : totals.divergedAt * discrete.samplePeriod,
   };
 }
 
@@ -211,6 +229,7 @@ export function computeSetpointStepMetrics(
 ): Pick<LoopMetrics, "riseTime" | "overshootPercent" | "settlingTime"> {
   const none = { riseTime: null, overshootPercent: null, settlingTime: null };
   const n = t.length;
+  if (n === 0) return none;
   let start = 0;
   let before = 0;
   if (r[0] === 0) {

@@ -114,7 +114,7 @@ export function computeStepResponse(plant: PlantModel, options: StepResponseOpti
   const points = options.points ?? 2001;
   if (!Number.isInteger(points) || points < 10) throw new ControlInputError("points", "must be an integer of at least 10");
   const h = duration / (points - 1);
-  const simulator = createPlantSimulator(discretisePlant(plant, h));
+  const simulator = createPlantSimulator(discretisePlant(plant, h), 0, points);
   const t = new Array<number>(points);
   const y = new Array<number>(points);
   for (let k = 0; k < points; k++) {

@@ -1,7 +1,7 @@
 /**
  * A loop's health from its recent digests: a band (steady, watch, act, silent), a 0–100
- * score and the reasons in words. Saturation share, clamped-integrator share and the error
- * limits have no single published threshold (app/lib/health/REFERENCES.md): they come from
+ * score by HEALTH_SCORE_TABLE and the reasons in words. Saturation share, clamped-integrator share and the error
+ * limits have no single published threshold (app/lib/health/REFERENCES.md, "Loop health"): they come from
  * the loop template's settings, whose defaults are practice. Oscillation uses Hägglund's
  * rule (1995, memory): more than a set number of load-disturbance detections per time.
  */
@@ -45,15 +45,116 @@ export function worseBand(a: HealthBand, b: HealthBand): HealthBand {
   return RANK[a] >= RANK[b] ? a : b;
 }
 
-export function bandForScore(score: number): Exclude<HealthBand, "silent"> {
-  return score >= 80 ? "steady" : score >= 50 ? "watch" : "act";
+/**
+ * Hägglund's oscillation rule as a rate (1995, memory; REFERENCES.md): more than 10 load
+ * detections within Tsup = 50·Tu, i.e. 10·3600/(50·Tu) = 720/Tu detections per hour.
+ */
+export function oscillationLimitPerHour(ultimatePeriod: number): number {
+  return (10 * 3600) / (50 * ultimatePeriod);
 }
 
-/** Penalty 0 below watch, rising to 25 at watch and 50 at act (linear between, capped at 60). */
-function penalty(value: number, watch: number, act: number): number {
-  if (!(value > 0) || value < watch) return 0;
-  if (value < act) return 25 + (25 * (value - watch)) / Math.max(act - watch, 1e-12);
-  return Math.min(60, 50 + (10 * (value - act)) / Math.max(act, 1e-12));
+/** Score → band: steady from 80, watch from 50, act below 50. */
+export const SCORE_BANDS = { steadyFrom: 80, watchFrom: 50 } as const;
+
+export function bandForScore(score: number): Exclude<HealthBand, "silent"> {
+  return score >= SCORE_BANDS.steadyFrom ? "steady" : score >= SCORE_BANDS.watchFrom ? "watch" : "act";
+}
+
+/** The measured values one assessment scores, each over all the digests given. */
+export type HealthSignals = {
+  /** Share of samples with the output at a limit (high or low), 0–1. */
+  saturationShare: number;
+  /** Share of samples with the integrator held, 0–1. */
+  clampShare: number;
+  /** Load-disturbance detections per hour (Hägglund 1995). */
+  oscillationPerHour: number;
+  /** Error RMS over the acceptable amplitude. */
+  errorRmsRatio: number;
+};
+
+type SignalRow = {
+  signal: keyof HealthSignals;
+  /** Signals in the same group describe one problem: only the worst of them counts. */
+  group: "windup" | "oscillation" | "error";
+  watch: (t: HealthThresholdSettings) => number;
+  act: (t: HealthThresholdSettings) => number;
+  /** Where the penalty reaches 100 (the worst the signal can sensibly be). */
+  full: (t: HealthThresholdSettings) => number;
+  reason: (value: number) => string;
+};
+
+/**
+ * THE health score, one row per signal (thresholds from the loop template's settings, whose
+ * defaults are practice; see REFERENCES.md in this folder). Each signal's penalty:
+ *
+ *   value < watch            0
+ *   watch ≤ value < act      25 … <50, linear       (score 75 … >50: band watch)
+ *   act ≤ value < full       51 … <100, linear      (score 49 … >0:  band act)
+ *   value ≥ full             100                    (score 0)
+ *
+ * Signals in one group describe one problem and count once, by their worst penalty:
+ * saturation and a held integrator are the same windup episode seen twice. Groups add:
+ * score = max(0, 100 − Σ group penalties), rounded down. So one signal at its watch limit
+ * bands watch, one at its act limit bands act, and two problems at watch together band
+ * watch (score 50); three band act.
+ */
+export const HEALTH_SCORE_TABLE: readonly SignalRow[] = [
+  {
+    signal: "saturationShare",
+    group: "windup",
+    watch: (t) => t.saturationWatch,
+    act: (t) => t.saturationAct,
+    full: () => 1,
+    reason: (v) => `Output saturated ${Math.round(v * 100)} % of the time.`,
+  },
+  {
+    signal: "clampShare",
+    group: "windup",
+    watch: (t) => t.clampWatch,
+    act: (t) => t.clampAct,
+    full: () => 1,
+    reason: (v) => `Integrator held at a limit ${Math.round(v * 100)} % of the time.`,
+  },
+  {
+    signal: "oscillationPerHour",
+    group: "oscillation",
+    watch: (t) => t.oscillationPerHour,
+    act: (t) => 2 * t.oscillationPerHour,
+    full: (t) => 4 * t.oscillationPerHour,
+    reason: (v) => `${v.toFixed(1)} load disturbances per hour (oscillation).`,
+  },
+  {
+    signal: "errorRmsRatio",
+    group: "error",
+    watch: (t) => t.errRmsWatch,
+    act: (t) => 2 * t.errRmsWatch,
+    full: (t) => 4 * t.errRmsWatch,
+    reason: (v) => `Error RMS ${v.toFixed(1)}× the acceptable amplitude.`,
+  },
+];
+
+/** One signal's penalty (0–100) by the table's rule. */
+export function signalPenalty(value: number, watch: number, act: number, full: number): number {
+  if (!(value >= watch) || !(value > 0)) return 0;
+  if (value < act) return 25 + (25 * (value - watch)) / (act - watch);
+  if (value >= full) return 100;
+  return 51 + (49 * (value - act)) / (full - act);
+}
+
+/** Score and reasons for measured signals, by HEALTH_SCORE_TABLE. */
+export function scoreHealthSignals(signals: HealthSignals, thresholds: HealthThresholdSettings): { score: number; reasons: string[] } {
+  const worst = new Map<SignalRow["group"], number>();
+  const reasons: string[] = [];
+  for (const row of HEALTH_SCORE_TABLE) {
+    const value = signals[row.signal];
+    const penalty = signalPenalty(value, row.watch(thresholds), row.act(thresholds), row.full(thresholds));
+    if (penalty > 0) reasons.push(row.reason(value));
+    worst.set(row.group, Math.max(worst.get(row.group) ?? 0, penalty));
+  }
+  let total = 0;
+  for (const penalty of worst.values()) total += penalty;
+  // Floor, never round: a score must not round up across a band edge.
+  return { score: Math.max(0, Math.floor(100 - total)), reasons };
 }
 
 export function assessLoopHealth(digests: DigestSummary[], thresholds: HealthThresholdSettings, now: Date): HealthAssessment {
@@ -76,20 +177,12 @@ export function assessLoopHealth(digests: DigestSummary[], thresholds: HealthThr
     seconds += Math.max(0, (d.windowEnd.getTime() - d.windowStart.getTime()) / 1000);
   }
   if (samples === 0) return { band: "silent", score: null, reasons: ["Digests carry no samples."] };
-  const satShare = sat / samples;
-  const clampShare = clamp / samples;
-  const rmsRatio = Math.sqrt(err2 / samples) / thresholds.acceptableAmplitude;
-  const oscPerHour = seconds > 0 ? (osc * 3600) / seconds : 0;
-
-  const reasons: string[] = [];
-  const pSat = penalty(satShare, thresholds.saturationWatch, thresholds.saturationAct);
-  if (pSat > 0) reasons.push(`Output saturated ${Math.round(satShare * 100)} % of the time.`);
-  const pClamp = penalty(clampShare, thresholds.clampWatch, thresholds.clampAct);
-  if (pClamp > 0) reasons.push(`Integrator held at a limit ${Math.round(clampShare * 100)} % of the time.`);
-  const pOsc = penalty(oscPerHour, thresholds.oscillationPerHour, thresholds.oscillationPerHour * 2);
-  if (pOsc > 0) reasons.push(`${oscPerHour.toFixed(1)} load disturbances per hour (oscillation).`);
-  const pErr = penalty(rmsRatio, thresholds.errRmsWatch, thresholds.errRmsWatch * 2);
-  if (pErr > 0) reasons.push(`Error RMS ${rmsRatio.toFixed(1)}× the acceptable amplitude.`);
-  const score = Math.max(0, Math.round(100 - pSat - pClamp - pOsc - pErr));
+  const signals: HealthSignals = {
+    saturationShare: sat / samples,
+    clampShare: clamp / samples,
+    oscillationPerHour: seconds > 0 ? (osc * 3600) / seconds : 0,
+    errorRmsRatio: Math.sqrt(err2 / samples) / thresholds.acceptableAmplitude,
+  };
+  const { score, reasons } = scoreHealthSignals(signals, thresholds);
   return { band: bandForScore(score), score, reasons };
 }
