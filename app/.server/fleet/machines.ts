@@ -8,20 +8,17 @@ import { recordAudit } from "~/.server/audit/record-audit";
 import type { Db } from "~/.server/db/client";
 import { customer, device, enrolmentCode, loop, loopTemplate, machine, machineModel, site } from "~/.server/db/schema";
 import { MACHINE_STATUSES, type MachineListQuery, type MachineSort, type RegisterMachineInput } from "~/lib/fleet/schemas";
-import type { HealthBand } from "~/lib/health";
+import { BAND_RANK, bandOfRank, DEFAULT_SILENT_AFTER_S, isSilent, silentAssessment, type HealthBand } from "~/lib/health";
 import { issueEnrolmentCode } from "./enrolment-codes";
 import { templateDescriptionColumns } from "./registry";
 import { inScope, type SiteScope } from "./scope";
 
-// Band of each loop: silent when its last digest is older than the template's limit.
+// Rank of each loop's band, in SQL so lists can filter and sort by it: the silence rule and the
+// ranks are lib/health's (isSilent, BAND_RANK), written out here for PostgreSQL.
 const LOOP_RANK = sql`case
-  when l.last_digest_at is null or l.last_digest_at < now() - make_interval(secs => coalesce((t.thresholds->>'silentAfter')::float8, 900)) then 3
-  when l.health_band = 'act' then 2
-  when l.health_band = 'watch' then 1
-  when l.health_band = 'steady' then 0
-  else 3 end`;
-
-const RANK_TO_BAND = ["steady", "watch", "act", "silent"] as const;
+  when l.last_digest_at is null or l.last_digest_at < now() - make_interval(secs => coalesce((t.thresholds->>'silentAfter')::float8, ${DEFAULT_SILENT_AFTER_S}::float8)) then ${BAND_RANK.silent}::int
+  ${sql.join((["act", "watch", "steady"] as const).map((band) => sql`when l.health_band = ${band} then ${BAND_RANK[band]}::int`), sql` `)}
+  else ${BAND_RANK.silent}::int end`;
 
 type MachineRow = {
   id: string;
@@ -61,7 +58,7 @@ function mapMachine(row: MachineRow) {
     site: { id: row.site_id, name: row.site_name, timeZone: row.time_zone },
     customer: { id: row.customer_id, name: row.customer_name },
     loopCount: Number(row.loop_count),
-    health: { band: RANK_TO_BAND[row.health_rank ?? 3] as HealthBand, score: row.health_score === null ? null : Number(row.health_score) },
+    health: { band: bandOfRank(row.health_rank ?? BAND_RANK.silent), score: row.health_score === null ? null : Number(row.health_score) },
     enrolment: row.device_status === "active" ? ("enrolled" as const) : row.device_status === "revoked" ? ("revoked" as const) : ("not_enrolled" as const),
   };
 }
@@ -93,7 +90,7 @@ function machineSelect(where: SQL, order: SQL, limit: number, offset: number) {
     join ${customer} c on c.organisation_id = s.organisation_id and c.id = s.customer_id
     left join lateral (
       select count(*)::int as loop_count, max(${LOOP_RANK})::int as health_rank,
-             min(case when ${LOOP_RANK} < 3 then l.health_score end)::int as health_score
+             min(case when ${LOOP_RANK} < ${BAND_RANK.silent}::int then l.health_score end)::int as health_score
       from ${loop} l join ${loopTemplate} t on t.organisation_id = l.organisation_id and t.id = l.template_id
       where l.organisation_id = m.organisation_id and l.machine_id = m.id
     ) h on true
@@ -116,7 +113,7 @@ export async function listMachines(db: Db, scope: SiteScope, query: MachineListQ
   if (query.siteId) where.push(sql`m.site_id = ${query.siteId}::uuid`);
   if (query.modelId) where.push(sql`m.model_id = ${query.modelId}::uuid`);
   if (query.status) where.push(sql`m.status = ${query.status}`);
-  if (query.health) where.push(sql`coalesce(h.health_rank, 3) = ${RANK_TO_BAND.indexOf(query.health)}`);
+  if (query.health) where.push(sql`coalesce(h.health_rank, ${BAND_RANK.silent}::int) = ${BAND_RANK[query.health]}::int`);
   if (query.q) {
     const pattern = `%${query.q.replace(/[\\%_]/g, (c) => `\\${c}`)}%`;
     where.push(sql`(m.serial ilike ${pattern} or coalesce(m.firmware, '') ilike ${pattern} or s.name ilike ${pattern} or c.name ilike ${pattern})`);
@@ -177,14 +174,14 @@ export async function getMachine(db: Db, scope: SiteScope, machineId: string) {
   return {
     ...mapMachine(row),
     loops: loops.map((l) => {
-      const stale = !l.lastDigestAt || now - l.lastDigestAt.getTime() > (l.thresholds.silentAfter ?? 900) * 1000;
+      const silent = isSilent(l.lastDigestAt, l.thresholds.silentAfter, new Date(now));
       const { thresholds, ...rest } = l;
       return {
         ...rest,
         thresholds,
         ackedAt: l.ackedAt?.toISOString() ?? null,
         lastDigestAt: l.lastDigestAt?.toISOString() ?? null,
-        health: { band: (stale ? "silent" : (l.healthBand ?? "silent")) as HealthBand, score: stale ? null : l.healthScore, reasons: stale ? [l.lastDigestAt ? "No digest received recently." : "No digest received yet."] : l.healthReasons },
+        health: silent ? silentAssessment(l.lastDigestAt) : { band: (l.healthBand ?? "silent") as HealthBand, score: l.healthScore, reasons: l.healthReasons },
       };
     }),
     devices: devices.map((d) => ({ ...d, enrolledAt: d.enrolledAt.toISOString(), revokedAt: d.revokedAt?.toISOString() ?? null })),

@@ -38,11 +38,30 @@ export type DigestSummary = {
 
 export type HealthAssessment = { band: HealthBand; score: number | null; reasons: string[] };
 
-const RANK: Record<HealthBand, number> = { steady: 0, watch: 1, act: 2, silent: 3 };
+/** How bad each band is, for sorting and for a machine's worst loop (silent ranks worst: nothing is known). */
+export const BAND_RANK: Record<HealthBand, number> = { steady: 0, watch: 1, act: 2, silent: 3 };
 
-/** The worse of two bands (silent ranks worst: nothing is known). */
+/** The band of a rank (BAND_RANK's inverse). */
+export function bandOfRank(rank: number): HealthBand {
+  return HEALTH_BANDS.find((band) => BAND_RANK[band] === rank) ?? "silent";
+}
+
+/** The worse of two bands. */
 export function worseBand(a: HealthBand, b: HealthBand): HealthBand {
-  return RANK[a] >= RANK[b] ? a : b;
+  return BAND_RANK[a] >= BAND_RANK[b] ? a : b;
+}
+
+/** Seconds without a digest after which a loop is silent, when its template sets none (practice: 15 one-minute windows). */
+export const DEFAULT_SILENT_AFTER_S = 900;
+
+/** The silence rule: no digest yet, or the last one ended more than `silentAfter` seconds ago. */
+export function isSilent(lastDigestEnd: Date | null, silentAfterS: number | undefined, now: Date): boolean {
+  return !lastDigestEnd || now.getTime() - lastDigestEnd.getTime() > (silentAfterS ?? DEFAULT_SILENT_AFTER_S) * 1000;
+}
+
+/** The silent band's assessment, in words. */
+export function silentAssessment(lastDigestEnd: Date | null): HealthAssessment {
+  return { band: "silent", score: null, reasons: [lastDigestEnd ? "No digest received recently." : "No digest received yet."] };
 }
 
 /**
@@ -159,9 +178,7 @@ export function scoreHealthSignals(signals: HealthSignals, thresholds: HealthThr
 
 export function assessLoopHealth(digests: DigestSummary[], thresholds: HealthThresholdSettings, now: Date): HealthAssessment {
   const last = digests.reduce<DigestSummary | undefined>((acc, d) => (!acc || d.windowEnd > acc.windowEnd ? d : acc), undefined);
-  if (!last || now.getTime() - last.windowEnd.getTime() > thresholds.silentAfter * 1000) {
-    return { band: "silent", score: null, reasons: [last ? "No digest received recently." : "No digest received yet."] };
-  }
+  if (!last || isSilent(last.windowEnd, thresholds.silentAfter, now)) return silentAssessment(last?.windowEnd ?? null);
   let samples = 0;
   let sat = 0;
   let clamp = 0;

@@ -1,6 +1,11 @@
 export { createDigestAccumulator, loadDisturbanceLimit, type DigestAccumulator, type DigestAccumulatorOptions, type DigestStats } from "./digest";
 export {
   assessLoopHealth,
+  BAND_RANK,
+  bandOfRank,
+  DEFAULT_SILENT_AFTER_S,
+  isSilent,
+  silentAssessment,
   bandForScore,
   HEALTH_BANDS,
   HEALTH_SCORE_TABLE,
