@@ -98,6 +98,18 @@ describe("assessLoopHealth", () => {
     expect(assessLoopHealth([digest({})], thresholds, now)).toEqual({ band: "steady", score: 100, reasons: [] });
   });
 
+  it("counts load detections over at least the supervision time 50·Tu, never extrapolating a few minutes", () => {
+    // Hägglund's rule (REFERENCES.md in this folder): more than 10 detections within
+    // Tsup = 50·Tu. With the limit 4.5/h (Tu = 160 s), Tsup = 36 000 / 4.5 = 8000 s.
+    // One detection in one 5-minute digest: 1 · 3600 / 8000 = 0.45 per hour — no finding
+    // (a plain rate would have said 12 per hour, an oscillation).
+    expect(assessLoopHealth([digest({ oscCount: 1 })], thresholds, now)).toEqual({ band: "steady", score: 100, reasons: [] });
+    // Eleven detections in the same 5 minutes: 11 · 3600 / 8000 = 4.95 per hour ≥ 4.5 — watch.
+    const many = assessLoopHealth([digest({ oscCount: 11 })], thresholds, now);
+    expect(many.band).toBe("watch");
+    expect(many.reasons).toEqual(["5.0 load disturbances per hour (oscillation)."]);
+  });
+
   it("is silent without recent digests", () => {
     expect(assessLoopHealth([digest({})], thresholds, new Date("2026-12-02T11:00:00Z")).band).toBe("silent");
     expect(assessLoopHealth([], thresholds, now)).toEqual({ band: "silent", score: null, reasons: ["No digest received yet."] });

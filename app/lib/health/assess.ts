@@ -176,6 +176,15 @@ export function scoreHealthSignals(signals: HealthSignals, thresholds: HealthThr
   return { score: Math.max(0, Math.floor(100 - total)), reasons };
 }
 
+/**
+ * Hägglund's supervision time Tsup = 50·Tu, from the limit per hour (720/Tu): 36 000 / limit s.
+ * Detections are counted over at least this long, so one load disturbance seen in a few
+ * minutes of digests is not extrapolated into an oscillation rate (app/lib/health/REFERENCES.md).
+ */
+export function supervisionSeconds(oscillationLimitPerHour: number): number {
+  return oscillationLimitPerHour > 0 ? 36_000 / oscillationLimitPerHour : 0;
+}
+
 export function assessLoopHealth(digests: DigestSummary[], thresholds: HealthThresholdSettings, now: Date): HealthAssessment {
   const last = digests.reduce<DigestSummary | undefined>((acc, d) => (!acc || d.windowEnd > acc.windowEnd ? d : acc), undefined);
   if (!last || isSilent(last.windowEnd, thresholds.silentAfter, now)) return silentAssessment(last?.windowEnd ?? null);
@@ -197,7 +206,7 @@ export function assessLoopHealth(digests: DigestSummary[], thresholds: HealthThr
   const signals: HealthSignals = {
     saturationShare: sat / samples,
     clampShare: clamp / samples,
-    oscillationPerHour: seconds > 0 ? (osc * 3600) / seconds : 0,
+    oscillationPerHour: (osc * 3600) / Math.max(seconds, supervisionSeconds(thresholds.oscillationPerHour)),
     errorRmsRatio: Math.sqrt(err2 / samples) / thresholds.acceptableAmplitude,
   };
   const { score, reasons } = scoreHealthSignals(signals, thresholds);
