@@ -110,18 +110,21 @@ function requestHeaders(req) {
 }
 
 /**
- * The body as a web stream that follows the reader's pace and fails past BODY_CEILING.
- * @param {import("node:http").IncomingMessage} req
+ * The body as a web stream that follows the reader's pace. Past BODY_CEILING it fails, reading
+ * stops, and `state.tooLarge` tells the caller to answer 413 whatever the route made of it.
+ * @param {import("node:http").IncomingMessage} req @param {{ tooLarge: boolean }} state
  */
-function bodyStream(req) {
+function bodyStream(req, state) {
   let size = 0;
   return new ReadableStream({
     start(controller) {
       req.on("data", (chunk) => {
         size += chunk.length;
         if (size > BODY_CEILING) {
+          state.tooLarge = true;
+          req.pause();
+          req.removeAllListeners("data");
           controller.error(new Error("body too large"));
-          req.destroy();
           return;
         }
         controller.enqueue(new Uint8Array(chunk.buffer, chunk.byteOffset, chunk.byteLength));
@@ -193,6 +196,13 @@ async function sendResponse(req, res, response) {
 const jsonError = (status, code, message) =>
   new Response(JSON.stringify({ error: { code, message } }), { status, headers: { "content-type": "application/json; charset=utf-8", "cache-control": "no-store" } });
 
+/** 413 for a body past BODY_CEILING; the connection closes, since the rest of the body is never read. */
+const tooLarge = () => {
+  const response = jsonError(413, "payload_too_large", `The body is larger than ${BODY_CEILING} bytes.`);
+  response.headers.set("connection", "close");
+  return response;
+};
+
 // Files under build/client, through serve-static (GET and HEAD only; anything it does not find
 // falls through to the app). Hashed /assets/ files are cached for a year.
 const assetsDir = path.join(clientDir, "assets") + path.sep;
@@ -240,11 +250,13 @@ async function serve(req, res) {
     if (!(error instanceof BadRequest)) throw error;
     return sendResponse(req, res, jsonError(400, "bad_request", "A request header is not valid."));
   }
+  const leanAnswer = lean.serve(req, url, headers, controller.signal);
+  if (leanAnswer) return sendResponse(req, res, await leanAnswer);
   const hasBody = req.method !== "GET" && req.method !== "HEAD";
-  const response =
-    lean.serve(req, url, headers, controller.signal) ??
-    handleRequest(new Request(url, { method: req.method, headers, signal: controller.signal, ...(hasBody ? { body: bodyStream(req), duplex: "half" } : {}) }));
-  await sendResponse(req, res, await response);
+  if (hasBody && Number(req.headers["content-length"]) > BODY_CEILING) return sendResponse(req, res, tooLarge());
+  const body = { tooLarge: false };
+  const response = await handleRequest(new Request(url, { method: req.method, headers, signal: controller.signal, ...(hasBody ? { body: bodyStream(req, body), duplex: "half" } : {}) }));
+  await sendResponse(req, res, body.tooLarge ? tooLarge() : response);
 }
 
 const server = http.createServer(

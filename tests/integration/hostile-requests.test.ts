@@ -51,6 +51,23 @@ describe("1. no request stops the service", () => {
     await stillAnswers();
   });
 
+  it("refuses a page post larger than any route reads, declared or streamed, with 413", async () => {
+    const declared = await rawRequest(`POST /sign-in HTTP/1.1\r\nHost: x\r\nContent-Type: application/x-www-form-urlencoded\r\nContent-Length: ${20 * 1024 * 1024}\r\nConnection: close\r\n\r\nemail=`);
+    expect(declared).toMatch(/^HTTP\/1\.1 413/);
+    // Chunked, with no length given: read up to the ceiling, then refused.
+    const chunk = new Uint8Array(1024 * 1024).fill(97);
+    let sent = 0;
+    const body = new ReadableStream<Uint8Array>({
+      pull(controller) {
+        if (sent++ < 20) controller.enqueue(chunk);
+        else controller.close();
+      },
+    });
+    const streamed = await fetch(`${APP_URL}/sign-in`, { method: "POST", headers: { "content-type": "application/x-www-form-urlencoded", origin: APP_URL }, body, duplex: "half" } as RequestInit).catch(() => null);
+    if (streamed) expect(streamed.status).toBe(413);
+    await stillAnswers();
+  });
+
   it("builds URLs from its own origin, never from the Host header", async () => {
     const response = await fetch(`${APP_URL}/o/corvid`, { redirect: "manual", headers: { host: "evil.example" } });
     expect(response.status).toBe(302);
