@@ -411,6 +411,9 @@ export function createStripeFake(options: StripeFakeOptions) {
   // ---------------------------------------------------------------- start and stop
 
   billing.seed();
+  for (const [slot, entry] of Object.entries(state.idempotency)) {
+    if (entry.at <= wallClock() - IDEMPOTENCY_TTL_SECONDS) delete state.idempotency[slot];
+  }
   // Deliveries left pending by the last run are tried again at once: the receiver has often
   // been restarted together with the fake.
   for (const delivery of state.deliveries) delivery.nextAttemptAt = Date.now();
