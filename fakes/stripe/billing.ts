@@ -85,6 +85,13 @@ function formatDay(t: number): string {
   return new Date(t * 1000).toLocaleDateString("en-GB", { day: "2-digit", month: "short", year: "numeric", timeZone: "UTC" });
 }
 
+/**
+ * Days after a renewal invoice is finalized on which a failed charge is tried again (Stripe's
+ * own schedule is configurable and "smart"; this is a fixed one). After the last, the
+ * subscription is marked unpaid; its invoices stay open until paid.
+ */
+export const RETRY_DAYS = [3, 5, 7];
+
 export type BillingHooks = {
   emit(type: string, object: StripeObject, previous?: Record<string, unknown>): void;
   publicUrl(): string;
@@ -350,14 +357,10 @@ export function createBilling(state: State, hooks: BillingHooks) {
       throw new ApiError(400, "invalid_request_error", "The test clock can only move forward: frozen_time must be later than the current one.", "parameter_invalid_integer", "frozen_time");
     }
     const subs = Object.values(objects).filter((o) => o.object === "subscription" && o.test_clock === id && o.status !== "canceled");
-    // Each period end in order, across the clock's subscriptions, with the clock at that moment.
-    for (;;) {
-      const due = subs
-        .filter((s) => s.status !== "canceled" && s.status !== "incomplete" && periodEnd(s) <= target)
-        .sort((a, b) => periodEnd(a) - periodEnd(b))[0];
-      if (!due) break;
-      clock.frozen_time = periodEnd(due);
-      renewSubscription(due);
+    // Each period end and payment retry in order, across the clock's subscriptions, with the clock at that moment.
+    for (let due = nextDue(subs, target); due; due = nextDue(subs, target)) {
+      clock.frozen_time = due.at;
+      due.run();
     }
     clock.frozen_time = target;
     hooks.emit("test_helpers.test_clock.ready", clock);
@@ -374,11 +377,37 @@ export function createBilling(state: State, hooks: BillingHooks) {
   /** Runs renewals of subscriptions without a clock whose period ended on the wall clock. */
   function advanceWallClock() {
     const now = hooks.wallClock();
-    for (const sub of Object.values(objects)) {
-      if (sub.object !== "subscription" || sub.test_clock || sub.status === "canceled" || sub.status === "incomplete") continue;
-      let guard = 0;
-      while (sub.status !== "canceled" && periodEnd(sub) <= now && guard++ < 120) renewSubscription(sub);
+    const subs = Object.values(objects).filter((o) => o.object === "subscription" && !o.test_clock && o.status !== "canceled");
+    let guard = 0;
+    for (let due = nextDue(subs, now); due && guard++ < 1000; due = nextDue(subs, now)) due.run();
+  }
+
+  type Due = { at: number; run: () => void };
+
+  /** The earliest period end or payment retry of these subscriptions at or before `until`. */
+  function nextDue(subs: StripeObject[], until: number): Due | null {
+    const dues: Due[] = [];
+    for (const sub of subs) {
+      if (sub.status !== "canceled" && sub.status !== "incomplete" && periodEnd(sub) <= until) dues.push({ at: periodEnd(sub), run: () => renewSubscription(sub) });
     }
+    for (const invoice of Object.values(objects)) {
+      if (invoice.object !== "invoice" || invoice.status !== "open" || !invoice.next_payment_attempt || invoice.next_payment_attempt > until) continue;
+      const sub = objects[subscriptionOf(invoice) ?? ""];
+      if (sub && subs.includes(sub) && sub.status !== "canceled") dues.push({ at: invoice.next_payment_attempt, run: () => retryInvoice(invoice, sub) });
+    }
+    return dues.sort((a, b) => a.at - b.at)[0] ?? null;
+  }
+
+  /** A scheduled retry of a failed renewal; after the last one fails, the subscription is unpaid. */
+  function retryInvoice(invoice: StripeObject, sub: StripeObject) {
+    const before = snapshot(sub);
+    if (payInvoice(invoice, invoice.next_payment_attempt)) {
+      if ((sub.status === "past_due" || sub.status === "unpaid") && !hasOpenInvoices(sub.id)) sub.status = "active";
+    } else if (invoice.next_payment_attempt === null) {
+      sub.status = "unpaid";
+    }
+    const previous = changed(before, sub);
+    if (Object.keys(previous).length) hooks.emit("customer.subscription.updated", sub, previous);
   }
 
   // ---------------------------------------------------------------- subscriptions
@@ -652,8 +681,8 @@ export function createBilling(state: State, hooks: BillingHooks) {
     for (const ii of pending) ii.invoice = invoice.id;
     sub.latest_invoice = invoice.id;
     const paid = payInvoice(invoice, oldEnd);
-    if (!paid) sub.status = "past_due";
-    else if (sub.status === "past_due" && !hasOpenInvoices(sub.id)) sub.status = "active";
+    if (!paid) sub.status = sub.status === "unpaid" ? "unpaid" : "past_due";
+    else if ((sub.status === "past_due" || sub.status === "unpaid") && !hasOpenInvoices(sub.id)) sub.status = "active";
     hooks.emit("customer.subscription.updated", sub, changed(before, sub));
   }
 
@@ -840,7 +869,9 @@ export function createBilling(state: State, hooks: BillingHooks) {
       invoice.attempt_count += 1;
       const fails = chargeFailure(customer.id, sub);
       if (fails) {
-        invoice.next_payment_attempt = at + 3 * 86400;
+        // A first invoice is not retried (the subscription stays incomplete); a renewal is, on a schedule.
+        const retryDay = invoice.billing_reason === "subscription_create" ? undefined : RETRY_DAYS[invoice.attempt_count - 1];
+        invoice.next_payment_attempt = retryDay === undefined ? null : invoice.status_transitions.finalized_at + retryDay * 86400;
         invoice._last_payment_error = fails;
         hooks.emit("invoice.payment_failed", invoice);
         return false;
@@ -868,7 +899,7 @@ export function createBilling(state: State, hooks: BillingHooks) {
     const before = sub ? snapshot(sub) : null;
     const at = nowFor(invoice.customer);
     if (!payInvoice(invoice, at)) throw cardError(invoice);
-    if (sub && before && (sub.status === "past_due" || sub.status === "incomplete") && !hasOpenInvoices(sub.id)) {
+    if (sub && before && ["past_due", "unpaid", "incomplete"].includes(sub.status) && !hasOpenInvoices(sub.id)) {
       sub.status = "active";
       hooks.emit("customer.subscription.updated", sub, changed(before, sub));
     }

@@ -219,6 +219,43 @@ describe("subscriptions, test clocks and invoices", () => {
     expect((await stripe.subscriptions.retrieve(sub.id)).status).toBe("active");
   });
 
+  it("retries a failed renewal on its schedule: paid once the card works, unpaid after the last failure", async () => {
+    const { stripe } = await startFake();
+    const price = await seededPrice(stripe);
+    const recovering = await customerOnClock(stripe, "pm_card_chargeDeclined");
+    const failing = await customerOnClock(stripe, "pm_card_chargeDeclined");
+    for (const { customer } of [recovering, failing]) {
+      const visa = await stripe.paymentMethods.attach("pm_card_visa", { customer: customer.id });
+      await stripe.subscriptions.create({ customer: customer.id, items: [{ price: price.id }], default_payment_method: visa.id });
+    }
+    const [a] = (await stripe.subscriptions.list({ customer: recovering.customer.id })).data;
+    const [b] = (await stripe.subscriptions.list({ customer: failing.customer.id })).data;
+    // Both now charge the customer's declining card.
+    await stripe.subscriptions.update(a!.id, { default_payment_method: "" });
+    await stripe.subscriptions.update(b!.id, { default_payment_method: "" });
+    const end = periodEnd(a!);
+    await stripe.testHelpers.testClocks.advance(recovering.clock.id, { frozen_time: end + DAY });
+    await stripe.testHelpers.testClocks.advance(failing.clock.id, { frozen_time: end + DAY });
+    const [open] = (await stripe.invoices.list({ subscription: a!.id, status: "open" })).data;
+    expect(open!.next_payment_attempt).toBe(end + 3 * DAY);
+
+    const visa = await stripe.paymentMethods.attach("pm_card_visa", { customer: recovering.customer.id });
+    await stripe.customers.update(recovering.customer.id, { invoice_settings: { default_payment_method: visa.id } });
+    await stripe.testHelpers.testClocks.advance(recovering.clock.id, { frozen_time: end + 4 * DAY });
+    const retried = await stripe.invoices.retrieve(open!.id);
+    expect(retried.status).toBe("paid");
+    expect(retried.attempt_count).toBe(2);
+    expect((await stripe.subscriptions.retrieve(a!.id)).status).toBe("active");
+
+    await stripe.testHelpers.testClocks.advance(failing.clock.id, { frozen_time: end + 6 * DAY });
+    expect((await stripe.subscriptions.retrieve(b!.id)).status).toBe("past_due");
+    await stripe.testHelpers.testClocks.advance(failing.clock.id, { frozen_time: end + 8 * DAY });
+    const [unpaidInvoice] = (await stripe.invoices.list({ subscription: b!.id, status: "open" })).data;
+    expect(unpaidInvoice!.attempt_count).toBe(4);
+    expect(unpaidInvoice!.next_payment_attempt).toBeNull();
+    expect((await stripe.subscriptions.retrieve(b!.id)).status).toBe("unpaid");
+  });
+
   it("refuses a first payment on the declining card with a card error when asked to", async () => {
     const { stripe } = await startFake();
     const price = await seededPrice(stripe);
