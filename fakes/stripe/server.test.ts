@@ -361,6 +361,7 @@ describe("webhooks and restarts", () => {
     const sub = await stripe.subscriptions.create({ customer: customer.id, items: [{ price: price.id, quantity: 2 }] });
     const [created] = await eventsOfType(stripe, "customer.subscription.created");
     expect(created!.id).toMatch(/^evt_/);
+    expect(created!.request?.id).toBe(sub.lastResponse.requestId);
     expect((created!.data.object as Stripe.Subscription).id).toBe(sub.id);
     const [paid] = await eventsOfType(stripe, "invoice.paid");
     expect((paid!.data.object as Stripe.Invoice).amount_paid).toBe(5800);

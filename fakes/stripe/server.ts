@@ -44,6 +44,8 @@ export function createStripeFake(options: StripeFakeOptions) {
   let timer: NodeJS.Timeout | null = null;
   let delivering = false;
   let closed = false;
+  /** The API request being answered: events it raises name it (those a test clock raises do not). */
+  let currentRequest: { id: string; idempotency_key: string | null } | null = null;
 
   const wallClock = () => Math.floor(Date.now() / 1000);
   function publicUrl(): string {
@@ -64,7 +66,7 @@ export function createStripeFake(options: StripeFakeOptions) {
         data: { object: present(object), ...(previous && Object.keys(previous).length ? { previous_attributes: present(previous) } : {}) },
         livemode: false,
         pending_webhooks: options.webhookUrl ? 1 : 0,
-        request: { id: null, idempotency_key: null },
+        request: currentRequest ?? { id: null, idempotency_key: null },
         type,
       });
       if (options.webhookUrl) state.deliveries.push({ eventId: event.id, attempts: 0, nextAttemptAt: Date.now(), lastError: null });
@@ -229,7 +231,7 @@ export function createStripeFake(options: StripeFakeOptions) {
     res.writeHead(status, {
       "content-type": "application/json",
       "content-length": String(Buffer.byteLength(payload)),
-      "request-id": newId("req", 14),
+      "request-id": headers["request-id"] ?? newId("req", 14),
       "stripe-version": API_VERSION,
       ...headers,
     });
@@ -297,6 +299,8 @@ export function createStripeFake(options: StripeFakeOptions) {
     let status = 200;
     let payload: string;
     const before = state.seq;
+    const requestId = newId("req", 14);
+    currentRequest = { id: requestId, idempotency_key: idempotencyKey ?? null };
     try {
       const route = routes.find((candidate) => candidate.method === method && candidate.pattern.test(url.pathname));
       if (!route) {
@@ -310,6 +314,8 @@ export function createStripeFake(options: StripeFakeOptions) {
       if (!(error instanceof ApiError)) throw error;
       status = error.status;
       payload = errorPayload(error);
+    } finally {
+      currentRequest = null;
     }
     // Stripe does not store an answer that never ran (a 4xx from validation), except what changed state.
     if (slot && (status < 400 || state.seq !== before)) {
@@ -317,7 +323,7 @@ export function createStripeFake(options: StripeFakeOptions) {
     }
     if (method !== "GET" || state.seq !== before) persist();
     schedule(0);
-    send(res, status, payload, idempotencyKey ? { "idempotency-key": idempotencyKey } : {});
+    send(res, status, payload, { "request-id": requestId, ...(idempotencyKey ? { "idempotency-key": idempotencyKey } : {}) });
   }
 
   async function handle(req: IncomingMessage, res: ServerResponse) {
