@@ -256,6 +256,22 @@ describe("subscriptions, test clocks and invoices", () => {
     expect((await stripe.subscriptions.retrieve(b!.id)).status).toBe("unpaid");
   });
 
+  it("starts with a free trial and bills the first period when the trial ends", async () => {
+    const { stripe } = await startFake();
+    const price = await seededPrice(stripe);
+    const { clock, customer } = await customerOnClock(stripe, "pm_card_visa");
+    const sub = await stripe.subscriptions.create({ customer: customer.id, items: [{ price: price.id, quantity: 3 }], trial_period_days: 14 });
+    expect(sub.status).toBe("trialing");
+    expect(sub.trial_end).toBe(clock.frozen_time + 14 * DAY);
+    expect(periodEnd(sub)).toBe(sub.trial_end);
+    const [trialInvoice] = (await stripe.invoices.list({ subscription: sub.id })).data;
+    expect(trialInvoice).toMatchObject({ amount_due: 0, status: "paid" });
+    await stripe.testHelpers.testClocks.advance(clock.id, { frozen_time: sub.trial_end! + DAY });
+    const after = await stripe.subscriptions.retrieve(sub.id, { expand: ["latest_invoice"] });
+    expect(after.status).toBe("active");
+    expect(after.latest_invoice as Stripe.Invoice).toMatchObject({ amount_paid: 3 * 2900, status: "paid" });
+  });
+
   it("refuses a first payment on the declining card with a card error when asked to", async () => {
     const { stripe } = await startFake();
     const price = await seededPrice(stripe);
