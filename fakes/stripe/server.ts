@@ -16,7 +16,11 @@ import path from "node:path";
 import qs from "qs";
 import { API_VERSION, ApiError, createBilling, type Params } from "./billing";
 import { handlePage } from "./pages";
+import knownParameters from "./known-parameters.json";
 import { loadState, newId, saveState, type StripeObject } from "./state";
+
+/** Top-level parameters of each endpoint, as the `stripe` SDK declares them (checked by shapes.test.ts). */
+const KNOWN_PARAMETERS: Record<string, string[] | undefined> = knownParameters;
 
 export type StripeFakeOptions = {
   dataDir: string;
@@ -35,7 +39,7 @@ const MAX_BODY = 1024 * 1024;
 const IDEMPOTENCY_TTL_SECONDS = 24 * 3600;
 const RETRY_CAP_MS = 3600 * 1000;
 
-type Route = { method: string; pattern: RegExp; run: (match: string[], params: Params) => StripeObject | Record<string, unknown> };
+type Route = { method: string; pattern: RegExp; params: string; run: (match: string[], params: Params) => StripeObject | Record<string, unknown> };
 
 export function createStripeFake(options: StripeFakeOptions) {
   const state = loadState(options.dataDir);
@@ -143,79 +147,79 @@ export function createStripeFake(options: StripeFakeOptions) {
   // ---------------------------------------------------------------- routes
 
   const id = "([A-Za-z0-9_]+)";
-  const r = (method: string, pattern: string, run: Route["run"]): Route => ({ method, pattern: new RegExp(`^${pattern}$`), run });
+  const r = (method: string, pattern: string, params: string, run: Route["run"]): Route => ({ method, pattern: new RegExp(`^${pattern}$`), params, run });
   const eq = (value: unknown) => (field: unknown) => value === undefined || field === value;
 
   const routes: Route[] = [
-    r("POST", "/v1/customers", (_m, p) => billing.createCustomer(p)),
-    r("GET", "/v1/customers", (_m, p) => list("customer", "/v1/customers", p, (o) => eq(p.email)(o.email) && eq(p.test_clock)(o.test_clock))),
-    r("GET", `/v1/customers/${id}`, ([cid]) => {
+    r("POST", "/v1/customers", "CustomerCreateParams", (_m, p) => billing.createCustomer(p)),
+    r("GET", "/v1/customers", "CustomerListParams", (_m, p) => list("customer", "/v1/customers", p, (o) => eq(p.email)(o.email) && eq(p.test_clock)(o.test_clock))),
+    r("GET", `/v1/customers/${id}`, "CustomerRetrieveParams", ([cid]) => {
       const found = state.objects[cid!];
       if (found?.object === "customer" && found.deleted) return { id: found.id, object: "customer", deleted: true };
       return billing.get("customer", cid);
     }),
-    r("POST", `/v1/customers/${id}`, ([cid], p) => billing.updateCustomer(cid!, p)),
-    r("DELETE", `/v1/customers/${id}`, ([cid]) => billing.deleteCustomer(cid!)),
-    r("GET", `/v1/customers/${id}/payment_methods`, ([cid], p) => {
+    r("POST", `/v1/customers/${id}`, "CustomerUpdateParams", ([cid], p) => billing.updateCustomer(cid!, p)),
+    r("DELETE", `/v1/customers/${id}`, "CustomerDeleteParams", ([cid]) => billing.deleteCustomer(cid!)),
+    r("GET", `/v1/customers/${id}/payment_methods`, "CustomerListPaymentMethodsParams", ([cid], p) => {
       billing.get("customer", cid);
       return list("payment_method", `/v1/customers/${cid}/payment_methods`, p, (o) => o.customer === cid);
     }),
 
-    r("POST", `/v1/payment_methods/${id}/attach`, ([pm], p) => billing.attachPaymentMethod(pm!, p)),
-    r("GET", `/v1/payment_methods/${id}`, ([pm]) => billing.get("payment_method", pm)),
-    r("GET", "/v1/payment_methods", (_m, p) => list("payment_method", "/v1/payment_methods", p, (o) => eq(p.customer)(o.customer))),
+    r("POST", `/v1/payment_methods/${id}/attach`, "PaymentMethodAttachParams", ([pm], p) => billing.attachPaymentMethod(pm!, p)),
+    r("GET", `/v1/payment_methods/${id}`, "PaymentMethodRetrieveParams", ([pm]) => billing.get("payment_method", pm)),
+    r("GET", "/v1/payment_methods", "PaymentMethodListParams", (_m, p) => list("payment_method", "/v1/payment_methods", p, (o) => eq(p.customer)(o.customer))),
 
-    r("POST", "/v1/products", (_m, p) => billing.createProduct(p)),
-    r("GET", "/v1/products", (_m, p) => list("product", "/v1/products", p, (o) => p.active === undefined || String(o.active) === String(p.active))),
-    r("GET", `/v1/products/${id}`, ([pid]) => billing.get("product", pid)),
+    r("POST", "/v1/products", "ProductCreateParams", (_m, p) => billing.createProduct(p)),
+    r("GET", "/v1/products", "ProductListParams", (_m, p) => list("product", "/v1/products", p, (o) => p.active === undefined || String(o.active) === String(p.active))),
+    r("GET", `/v1/products/${id}`, "ProductRetrieveParams", ([pid]) => billing.get("product", pid)),
 
-    r("POST", "/v1/prices", (_m, p) => billing.createPrice(p)),
-    r("GET", "/v1/prices", (_m, p) => {
+    r("POST", "/v1/prices", "PriceCreateParams", (_m, p) => billing.createPrice(p)),
+    r("GET", "/v1/prices", "PriceListParams", (_m, p) => {
       const keys = Array.isArray(p.lookup_keys) ? (p.lookup_keys as string[]) : p.lookup_keys ? [String(p.lookup_keys)] : null;
       return list("price", "/v1/prices", p, (o) =>
         (!keys || keys.includes(o.lookup_key)) && eq(p.product)(o.product) && eq(p.type)(o.type) && eq(p.currency)(o.currency) &&
         (p.active === undefined || String(o.active) === String(p.active)));
     }),
-    r("GET", `/v1/prices/${id}`, ([pid]) => billing.get("price", pid)),
+    r("GET", `/v1/prices/${id}`, "PriceRetrieveParams", ([pid]) => billing.get("price", pid)),
 
-    r("POST", "/v1/test_helpers/test_clocks", (_m, p) => billing.createClock(p)),
-    r("GET", "/v1/test_helpers/test_clocks", (_m, p) => list("test_helpers.test_clock", "/v1/test_helpers/test_clocks", p)),
-    r("GET", `/v1/test_helpers/test_clocks/${id}`, ([cid]) => billing.get("test_helpers.test_clock", cid)),
-    r("POST", `/v1/test_helpers/test_clocks/${id}/advance`, ([cid], p) => billing.advanceClock(cid!, p)),
-    r("DELETE", `/v1/test_helpers/test_clocks/${id}`, ([cid]) => billing.deleteClock(cid!)),
+    r("POST", "/v1/test_helpers/test_clocks", "TestHelpers.TestClockCreateParams", (_m, p) => billing.createClock(p)),
+    r("GET", "/v1/test_helpers/test_clocks", "TestHelpers.TestClockListParams", (_m, p) => list("test_helpers.test_clock", "/v1/test_helpers/test_clocks", p)),
+    r("GET", `/v1/test_helpers/test_clocks/${id}`, "TestHelpers.TestClockRetrieveParams", ([cid]) => billing.get("test_helpers.test_clock", cid)),
+    r("POST", `/v1/test_helpers/test_clocks/${id}/advance`, "TestHelpers.TestClockAdvanceParams", ([cid], p) => billing.advanceClock(cid!, p)),
+    r("DELETE", `/v1/test_helpers/test_clocks/${id}`, "TestHelpers.TestClockDeleteParams", ([cid]) => billing.deleteClock(cid!)),
 
-    r("POST", "/v1/subscriptions", (_m, p) => billing.createSubscription(p)),
-    r("GET", "/v1/subscriptions", (_m, p) =>
+    r("POST", "/v1/subscriptions", "SubscriptionCreateParams", (_m, p) => billing.createSubscription(p)),
+    r("GET", "/v1/subscriptions", "SubscriptionListParams", (_m, p) =>
       list("subscription", "/v1/subscriptions", p, (o) =>
         eq(p.customer)(o.customer) && eq(p.test_clock)(o.test_clock) && eq(p.price)(o.items.data[0].price.id) &&
         (p.status === "all" ? true : p.status ? o.status === p.status : o.status !== "canceled"))),
-    r("GET", `/v1/subscriptions/${id}`, ([sid]) => billing.get("subscription", sid)),
-    r("POST", `/v1/subscriptions/${id}`, ([sid], p) => billing.updateSubscription(sid!, p)),
-    r("DELETE", `/v1/subscriptions/${id}`, ([sid], p) => billing.cancelSubscription(sid!, p)),
-    r("GET", `/v1/subscription_items/${id}`, ([si]) => findItem(si!)),
-    r("POST", `/v1/subscription_items/${id}`, ([si], p) => {
+    r("GET", `/v1/subscriptions/${id}`, "SubscriptionRetrieveParams", ([sid]) => billing.get("subscription", sid)),
+    r("POST", `/v1/subscriptions/${id}`, "SubscriptionUpdateParams", ([sid], p) => billing.updateSubscription(sid!, p)),
+    r("DELETE", `/v1/subscriptions/${id}`, "SubscriptionCancelParams", ([sid], p) => billing.cancelSubscription(sid!, p)),
+    r("GET", `/v1/subscription_items/${id}`, "SubscriptionItemRetrieveParams", ([si]) => findItem(si!)),
+    r("POST", `/v1/subscription_items/${id}`, "SubscriptionItemUpdateParams", ([si], p) => {
       const item = findItem(si!);
       billing.updateSubscription(item.subscription, { items: [{ id: si, quantity: p.quantity }], proration_behavior: p.proration_behavior });
       return findItem(si!);
     }),
 
-    r("GET", "/v1/invoices", (_m, p) =>
+    r("GET", "/v1/invoices", "InvoiceListParams", (_m, p) =>
       list("invoice", "/v1/invoices", p, (o) => eq(p.customer)(o.customer) && eq(p.subscription)(billing.subscriptionOf(o)) && eq(p.status)(o.status))),
-    r("POST", "/v1/invoices/create_preview", (_m, p) => billing.previewInvoice(p)),
-    r("GET", `/v1/invoices/${id}`, ([iid]) => billing.get("invoice", iid)),
-    r("POST", `/v1/invoices/${id}/pay`, ([iid]) => billing.payOpenInvoice(iid!)),
-    r("GET", "/v1/invoiceitems", (_m, p) =>
+    r("POST", "/v1/invoices/create_preview", "InvoiceCreatePreviewParams", (_m, p) => billing.previewInvoice(p)),
+    r("GET", `/v1/invoices/${id}`, "InvoiceRetrieveParams", ([iid]) => billing.get("invoice", iid)),
+    r("POST", `/v1/invoices/${id}/pay`, "InvoicePayParams", ([iid]) => billing.payOpenInvoice(iid!)),
+    r("GET", "/v1/invoiceitems", "InvoiceItemListParams", (_m, p) =>
       list("invoiceitem", "/v1/invoiceitems", p, (o) => eq(p.customer)(o.customer) && (p.pending === undefined || (o.invoice === null) === (String(p.pending) === "true")))),
 
-    r("POST", "/v1/checkout/sessions", (_m, p) => billing.createCheckoutSession(p)),
-    r("GET", "/v1/checkout/sessions", (_m, p) =>
+    r("POST", "/v1/checkout/sessions", "Checkout.SessionCreateParams", (_m, p) => billing.createCheckoutSession(p)),
+    r("GET", "/v1/checkout/sessions", "Checkout.SessionListParams", (_m, p) =>
       list("checkout.session", "/v1/checkout/sessions", p, (o) => eq(p.customer)(o.customer) && eq(p.subscription)(o.subscription))),
-    r("GET", `/v1/checkout/sessions/${id}`, ([cs]) => billing.get("checkout.session", cs)),
+    r("GET", `/v1/checkout/sessions/${id}`, "Checkout.SessionRetrieveParams", ([cs]) => billing.get("checkout.session", cs)),
 
-    r("POST", "/v1/billing_portal/sessions", (_m, p) => billing.createPortalSession(p)),
+    r("POST", "/v1/billing_portal/sessions", "BillingPortal.SessionCreateParams", (_m, p) => billing.createPortalSession(p)),
 
-    r("GET", "/v1/events", (_m, p) => list("event", "/v1/events", p, (o) => eq(p.type)(o.type))),
-    r("GET", `/v1/events/${id}`, ([eid]) => billing.get("event", eid)),
+    r("GET", "/v1/events", "EventListParams", (_m, p) => list("event", "/v1/events", p, (o) => eq(p.type)(o.type))),
+    r("GET", `/v1/events/${id}`, "EventRetrieveParams", ([eid]) => billing.get("event", eid)),
   ];
 
   function findItem(itemId: string): StripeObject {
@@ -306,6 +310,10 @@ export function createStripeFake(options: StripeFakeOptions) {
       if (!route) {
         throw new ApiError(404, "invalid_request_error", `Unrecognized request URL (${method}: ${url.pathname}). This service implements only the part of the API Flyball uses.`);
       }
+      // Like Stripe, refuse a parameter the endpoint does not take (the SDK's declared parameters).
+      const known = KNOWN_PARAMETERS[route.params];
+      const unknown = known && Object.keys(params).find((name) => !known.includes(name));
+      if (unknown) throw new ApiError(400, "invalid_request_error", `Received unknown parameter: ${unknown}`, "parameter_unknown", unknown);
       const match = url.pathname.match(route.pattern)!.slice(1);
       const result = route.run(match, params);
       const paths = Array.isArray(params.expand) ? (params.expand as string[]) : params.expand ? [String(params.expand)] : [];
@@ -445,6 +453,8 @@ export function createStripeFake(options: StripeFakeOptions) {
   return {
     server,
     state,
+    /** The SDK parameter types the routes take, by name (shapes.test.ts keeps known-parameters.json in step). */
+    parameterTypes: () => [...new Set(routes.map((route) => route.params))].sort(),
     /** Pending webhook deliveries (for tests and the overview page). */
     pendingDeliveries: () => state.deliveries.length,
     sign,

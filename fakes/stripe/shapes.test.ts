@@ -1,7 +1,7 @@
 // The fake's objects against the SDK's own type declarations: every property the `stripe`
 // package declares as always present is there, and nothing the package does not declare is.
 // The declarations are read with the TypeScript compiler, so a new SDK version re-checks them.
-import { mkdtempSync, rmSync } from "node:fs";
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import path from "node:path";
 import Stripe from "stripe";
@@ -76,11 +76,11 @@ function shapeProblems(checker: ts.TypeChecker, type: ts.Type, value: unknown, a
 }
 
 /** The SDK's declared type of each shape, read with the TypeScript compiler. */
-function readDeclarations() {
+function readDeclarations(parameterTypes: string[]) {
   const probe = path.resolve("fakes/stripe/__shape-probe__.ts");
   const source = `import type Stripe from "stripe";\nexport type Shapes = {\n${Object.entries(SHAPES)
     .map(([k, t]) => `  ${k}: ${t};`)
-    .join("\n")}\n};\n`;
+    .join("\n")}\n};\nexport type Parameters = {\n${parameterTypes.map((t) => `  "${t}": Stripe.${t};`).join("\n")}\n};\n`;
   const options: ts.CompilerOptions = { module: ts.ModuleKind.ES2022, moduleResolution: ts.ModuleResolutionKind.Bundler, target: ts.ScriptTarget.ES2022, types: [], skipLibCheck: true, noEmit: true, strict: true };
   const host = ts.createCompilerHost(options);
   const { getSourceFile, fileExists, readFile } = host;
@@ -90,13 +90,19 @@ function readDeclarations() {
   const program = ts.createProgram([probe], options, host);
   const checker = program.getTypeChecker();
   const file = program.getSourceFile(probe)!;
-  const shapes = checker.getTypeAtLocation(file.statements.find(ts.isTypeAliasDeclaration)!.name);
+  const [shapes, parameters] = file.statements.filter(ts.isTypeAliasDeclaration).map((d) => checker.getTypeAtLocation(d.name)) as [ts.Type, ts.Type];
   const types = {} as Record<ShapeName, ts.Type>;
   for (const name of Object.keys(SHAPES) as ShapeName[]) {
     types[name] = checker.getTypeOfSymbol(shapes.getProperty(name)!);
     expect(checker.getPropertiesOfType(types[name]).length, `the SDK declares ${SHAPES[name]}`).toBeGreaterThan(2);
   }
-  return { checker, types };
+  const parameterNames: Record<string, string[]> = {};
+  for (const name of parameterTypes) {
+    const type = checker.getTypeOfSymbol(parameters.getProperty(name)!);
+    parameterNames[name] = checker.getPropertiesOfType(type).map((p) => p.getName()).sort();
+    expect(type.flags & ts.TypeFlags.Any, `the SDK declares Stripe.${name}`).toBe(0);
+  }
+  return { checker, types, parameterNames };
 }
 
 let declarations: ReturnType<typeof readDeclarations>;
@@ -105,9 +111,9 @@ let stripe: Stripe;
 let dir: string;
 
 beforeAll(async () => {
-  declarations = readDeclarations();
   dir = mkdtempSync(path.join(tmpdir(), "stripe-shapes-"));
   fake = createStripeFake({ dataDir: dir, webhookSecret: "whsec_shapes" });
+  declarations = readDeclarations(fake.parameterTypes());
   const url = new URL(await fake.listen(0));
   stripe = new Stripe("sk_test_shapes", { host: url.hostname, port: Number(url.port), protocol: "http", telemetry: false, maxNetworkRetries: 0 });
 }, 60_000);
@@ -122,6 +128,21 @@ function expectShape(name: ShapeName, value: object) {
   shapeProblems(declarations.checker, declarations.types[name], value, SHAPES[name], problems);
   expect.soft(problems).toEqual([]);
 }
+
+describe("parameters against the SDK's declarations", () => {
+  // `UPDATE_KNOWN_PARAMETERS=1 npx vitest run fakes/stripe/shapes` rewrites the file after an SDK upgrade or a new route.
+  it("known-parameters.json lists what the SDK declares for each endpoint the fake serves", () => {
+    const file = path.resolve("fakes/stripe/known-parameters.json");
+    if (process.env.UPDATE_KNOWN_PARAMETERS) writeFileSync(file, `${JSON.stringify(declarations.parameterNames, null, 2)}\n`);
+    expect(JSON.parse(readFileSync(file, "utf8"))).toEqual(declarations.parameterNames);
+  });
+
+  it("refuses a parameter the endpoint does not take, as Stripe does", async () => {
+    const error = await stripe.customers.create({ email: "a@example.com", colour: "teal" } as Stripe.CustomerCreateParams).catch((e: unknown) => e);
+    expect(error).toBeInstanceOf(Stripe.errors.StripeInvalidRequestError);
+    expect(error).toMatchObject({ statusCode: 400, code: "parameter_unknown", param: "colour", message: "Received unknown parameter: colour" });
+  });
+});
 
 describe("object shapes against the SDK's declarations", () => {
   it("customers, products, prices, payment methods, test clocks and lists", async () => {
