@@ -57,7 +57,7 @@ function asBool(value: unknown): boolean {
 }
 
 function asMetadata(value: unknown, previous: Record<string, string> = {}): Record<string, string> {
-  if (value === "" ) return {};
+  if (value === "") return {};
   if (!value || typeof value !== "object") return previous;
   const next = { ...previous };
   for (const [k, v] of Object.entries(value as Record<string, unknown>)) {
@@ -198,7 +198,7 @@ export function createBilling(state: State, hooks: BillingHooks) {
   function deleteCustomer(id: string): StripeObject {
     const customer = get("customer", id);
     for (const sub of Object.values(objects)) {
-      if (sub.object === "subscription" && sub.customer === id && sub.status !== "canceled") cancelSubscription(sub.id, {});
+      if (sub.object === "subscription" && sub.customer === id && sub.status !== "canceled") cancelSubscription(sub.id);
     }
     customer.deleted = true;
     hooks.emit("customer.deleted", customer);
@@ -641,14 +641,14 @@ export function createBilling(state: State, hooks: BillingHooks) {
     });
   }
 
-  function cancelSubscription(id: string, params: Params): StripeObject {
+  /** Ends the subscription now (Stripe's `invoice_now` and `prorate` options are accepted and not acted on). */
+  function cancelSubscription(id: string): StripeObject {
     const sub = get("subscription", id);
     if (sub.status === "canceled") {
       throw new ApiError(400, "invalid_request_error", `This subscription has already been canceled: ${id}.`, "resource_missing", "subscription");
     }
     const now = nowFor(sub.customer);
     endSubscription(sub, now, "cancellation_requested");
-    void params;
     return sub;
   }
 

@@ -77,7 +77,7 @@ export function createStripeFake(options: StripeFakeOptions) {
     },
   });
 
-  /** A copy for the outside: internal fields (named with a leading "_") removed, deleted objects marked. */
+  /** A copy for the outside: internal fields (named with a leading "_") removed. */
   function present<T>(value: T): T {
     return JSON.parse(JSON.stringify(value, (key, v) => (key.startsWith("_") ? undefined : v))) as T;
   }
@@ -133,7 +133,7 @@ export function createStripeFake(options: StripeFakeOptions) {
       return;
     }
     let value = holder[head];
-    if (typeof value === "string" && rest.length >= 0) {
+    if (typeof value === "string") {
       const target = state.objects[value];
       if (!target) return;
       value = structuredClone(target);
@@ -195,7 +195,7 @@ export function createStripeFake(options: StripeFakeOptions) {
         (p.status === "all" ? true : p.status ? o.status === p.status : o.status !== "canceled"))),
     r("GET", `/v1/subscriptions/${id}`, "SubscriptionRetrieveParams", ([sid]) => billing.get("subscription", sid)),
     r("POST", `/v1/subscriptions/${id}`, "SubscriptionUpdateParams", ([sid], p) => billing.updateSubscription(sid!, p)),
-    r("DELETE", `/v1/subscriptions/${id}`, "SubscriptionCancelParams", ([sid], p) => billing.cancelSubscription(sid!, p)),
+    r("DELETE", `/v1/subscriptions/${id}`, "SubscriptionCancelParams", ([sid]) => billing.cancelSubscription(sid!)),
     r("GET", `/v1/subscription_items/${id}`, "SubscriptionItemRetrieveParams", ([si]) => findItem(si!)),
     r("POST", `/v1/subscription_items/${id}`, "SubscriptionItemUpdateParams", ([si], p) => {
       const item = findItem(si!);
