@@ -406,6 +406,27 @@ describe("webhooks and restarts", () => {
     expect(listed.data.map((e) => e.id)).toEqual([failed!.id]);
   });
 
+  it("sends checkout.session.completed after the card page, with a customer it created from the e-mail", async () => {
+    const { stripe } = await startFake({ webhookUrl: receiverUrl });
+    const price = await seededPrice(stripe);
+    const session = await stripe.checkout.sessions.create({
+      mode: "subscription",
+      customer_email: "new-owner@example.com",
+      client_reference_id: "org_42",
+      line_items: [{ price: price.id, quantity: 1 }],
+      success_url: "http://app.example/done",
+    });
+    const paid = await fetch(session.url!, { method: "POST", body: new URLSearchParams({ number: "4242424242424242", expiry: "12/34", cvc: "123" }), redirect: "manual" });
+    expect(paid.status).toBe(303);
+    const [completed] = await eventsOfType(stripe, "checkout.session.completed");
+    const done = completed!.data.object as Stripe.Checkout.Session;
+    expect(done).toMatchObject({ id: session.id, client_reference_id: "org_42", status: "complete", payment_status: "paid" });
+    const customer = await stripe.customers.retrieve(done.customer as string);
+    expect((customer as Stripe.Customer).email).toBe("new-owner@example.com");
+    const [created] = await eventsOfType(stripe, "customer.subscription.created");
+    expect((created!.data.object as Stripe.Subscription).id).toBe(done.subscription);
+  });
+
   it("retries a delivery the receiver refused until it answers 2xx", async () => {
     failuresLeft = 2;
     const { stripe, fake } = await startFake({ webhookUrl: receiverUrl });
