@@ -11,6 +11,12 @@ export RESEND_FAKE_PORT="${TEST_RESEND_PORT:-3035}"
 export DATABASE_URL="postgres://flyball@127.0.0.1:$TEST_PG_PORT/flyball"
 export RESEND_BASE_URL="http://127.0.0.1:$RESEND_FAKE_PORT"
 export RESEND_FAKE_DIR="$ROOT/data/test-resend-$RESEND_FAKE_PORT"
+export STRIPE_FAKE_PORT="${TEST_STRIPE_PORT:-3036}"
+export STRIPE_BASE_URL="http://127.0.0.1:$STRIPE_FAKE_PORT"
+export STRIPE_FAKE_DIR="$ROOT/data/test-stripe-$STRIPE_FAKE_PORT"
+export STRIPE_SECRET_KEY="sk_test_flyball_tests"
+export STRIPE_WEBHOOK_SECRET="whsec_test_secret_not_for_production"
+export STRIPE_WEBHOOK_URL="http://127.0.0.1:$TEST_APP_PORT/api/webhooks/stripe"
 export BETTER_AUTH_URL="http://127.0.0.1:$TEST_APP_PORT"
 export TRUSTED_ORIGINS="http://localhost:$TEST_APP_PORT"
 export BETTER_AUTH_SECRET="test-secret-not-for-production-0123456789abcdef"
@@ -46,7 +52,7 @@ cleanup() {
 trap cleanup EXIT INT TERM
 
 pg_stop "$DATA_DIR"
-rm -rf "$DATA_DIR" "$RESEND_FAKE_DIR" "$REPORTS"
+rm -rf "$DATA_DIR" "$RESEND_FAKE_DIR" "$STRIPE_FAKE_DIR" "$REPORTS"
 mkdir -p "$REPORTS"
 echo "Starting a fresh test PostgreSQL on 127.0.0.1:$TEST_PG_PORT…"
 pg_ensure_running "$DATA_DIR" "$TEST_PG_PORT" off || exit 1
@@ -55,6 +61,8 @@ node_modules/.bin/tsx scripts/seed.ts || exit 1
 
 start_child mail node_modules/.bin/tsx fakes/resend/server.ts
 wait_for_http "$RESEND_BASE_URL/api/messages" 60 || exit 1
+start_child stripe node_modules/.bin/tsx fakes/stripe/server.ts
+wait_for_http "$STRIPE_BASE_URL/" 60 || exit 1
 
 echo "Building the app…"
 node_modules/.bin/react-router build >"$REPORTS/build.log" 2>&1 || { cat "$REPORTS/build.log"; exit 1; }

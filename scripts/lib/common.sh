@@ -28,6 +28,18 @@ ensure_key_encryption_key() {
   export FLYBALL_KEY_ENCRYPTION_KEY
 }
 
+# The secret webhooks from the local Stripe are signed with: generated once, kept outside git;
+# the fake reads the same file (or STRIPE_WEBHOOK_SECRET).
+ensure_stripe_webhook_secret() {
+  mkdir -p .local
+  if [[ ! -s .local/stripe-webhook-secret ]]; then
+    node -e "process.stdout.write('whsec_' + require('node:crypto').randomBytes(24).toString('base64url'))" > .local/stripe-webhook-secret
+    chmod 600 .local/stripe-webhook-secret
+  fi
+  STRIPE_WEBHOOK_SECRET="${STRIPE_WEBHOOK_SECRET:-$(cat .local/stripe-webhook-secret)}"
+  export STRIPE_WEBHOOK_SECRET
+}
+
 CHILD_PIDS=()
 start_child() {
   local name="$1"; shift
