@@ -29,18 +29,9 @@ export function windowSeconds(d: Pick<HealthDigest, "windowStart" | "windowEnd">
  * The digests sorted by window (start, then end), ties broken on every other field so the order
  * is total: two arrivals of the same set give the same sequence. Returns a new array.
  */
-export function inWindowOrder<D extends HealthDigest>(digests: readonly D[]): D[] {
-  const key = (d: HealthDigest) => [
-    d.windowStart.getTime(),
-    d.windowEnd.getTime(),
-    d.gainVersion,
-    d.samples,
-    d.iae,
-    d.satHighFrac,
-    d.satLowFrac,
-    d.intClampFrac,
-    d.oscCount,
-  ];
+export function inWindowOrder<D extends Pick<HealthDigest, "windowStart" | "windowEnd">>(digests: readonly D[]): D[] {
+  const tieBreak = ["gainVersion", "samples", "iae", "satHighFrac", "satLowFrac", "intClampFrac", "oscCount"] as const;
+  const key = (d: D) => [d.windowStart.getTime(), d.windowEnd.getTime(), ...tieBreak.map((f) => (d as Partial<HealthDigest>)[f] ?? 0)];
   return [...digests].sort((a, b) => {
     const ka = key(a);
     const kb = key(b);
