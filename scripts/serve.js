@@ -242,7 +242,11 @@ async function serve(req, res) {
   }
   if (!lean.paths.includes(url.pathname) && (req.method === "GET" || req.method === "HEAD") && (await serveFile(req, res))) return;
   const controller = new AbortController();
-  res.on("close", () => controller.abort());
+  // Abort the route's work only when the client went away before the answer was complete
+  // (aborting after every answer would cost an exception object per request).
+  res.on("close", () => {
+    if (!res.writableFinished) controller.abort();
+  });
   let headers;
   try {
     headers = requestHeaders(req);

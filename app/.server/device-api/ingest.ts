@@ -117,8 +117,12 @@ async function runIngest(posts: Post[]): Promise<PostOutcome[]> {
     requestColumns[3].push(token.expiresAt.toISOString());
     for (const { loopId, d } of rows) {
       // `with ordinality` numbers the requests from 1.
-      const row = [index + 1, loopId, d.seq, d.windowStart, d.windowEnd, ...DIGEST_FIELDS.map((f) => d[f.name])];
-      for (let c = 0; c < row.length; c++) digestColumns[c].push(row[c]);
+      digestColumns[0].push(index + 1);
+      digestColumns[1].push(loopId);
+      digestColumns[2].push(d.seq);
+      digestColumns[3].push(d.windowStart);
+      digestColumns[4].push(d.windowEnd);
+      for (let f = 0; f < DIGEST_FIELDS.length; f++) digestColumns[f + 5].push(d[DIGEST_FIELDS[f].name]);
     }
   });
   // The digest columns are sent as array literals made here: every element is a finite number,
@@ -190,7 +194,10 @@ export async function ingestDigests(token: VerifiedToken, items: unknown[], nowM
     }
     seen.add(key);
     // Times go to SQL in UTC: PostgreSQL refuses offsets that ISO 8601 allows (beyond ±15:59).
-    valid.push({ loopId, d: { ...d, windowStart: new Date(start).toISOString(), windowEnd: new Date(end).toISOString() } });
+    // `d` is zod's own copy of the item, so it is rewritten in place; most devices send UTC already.
+    if (!d.windowStart.endsWith("Z")) d.windowStart = new Date(start).toISOString();
+    if (!d.windowEnd.endsWith("Z")) d.windowEnd = new Date(end).toISOString();
+    valid.push({ loopId, d });
   }
   // Even with nothing valid to store the token is checked and its jti used up.
   const outcome = await ingest.run({ token, rows: valid });
