@@ -241,12 +241,6 @@ async function serve(req, res) {
     return sendResponse(req, res, jsonError(400, "bad_request", "The request target is not valid."));
   }
   if (!lean.paths.includes(url.pathname) && (req.method === "GET" || req.method === "HEAD") && (await serveFile(req, res))) return;
-  const controller = new AbortController();
-  // Abort the route's work only when the client went away before the answer was complete
-  // (aborting after every answer would cost an exception object per request).
-  res.on("close", () => {
-    if (!res.writableFinished) controller.abort();
-  });
   let headers;
   try {
     headers = requestHeaders(req);
@@ -254,8 +248,15 @@ async function serve(req, res) {
     if (!(error instanceof BadRequest)) throw error;
     return sendResponse(req, res, jsonError(400, "bad_request", "A request header is not valid."));
   }
-  const leanAnswer = lean.serve(req, url, headers, controller.signal);
+  // Device calls are short and run to the end: no abort signal on the lean path (a signal costs
+  // undici's Request a set of listeners per request).
+  const leanAnswer = lean.serve(req, url, headers);
   if (leanAnswer) return sendResponse(req, res, await leanAnswer);
+  const controller = new AbortController();
+  // Abort a page's work only when the client went away before the answer was complete.
+  res.on("close", () => {
+    if (!res.writableFinished) controller.abort();
+  });
   const hasBody = req.method !== "GET" && req.method !== "HEAD";
   if (hasBody && Number(req.headers["content-length"]) > BODY_CEILING) return sendResponse(req, res, tooLarge());
   const body = { tooLarge: false };

@@ -4,10 +4,16 @@
 // keep one misbehaving device from starving the others.
 const buckets = new Map<string, { tokens: number; at: number }>();
 
+let cached: { rate: number; burst: number } | undefined;
+
+/** Read once: process.env is slow to read on every request. */
 function settings() {
-  const rate = Number(process.env.DEVICE_RATE_PER_SECOND ?? 10);
-  const burst = Number(process.env.DEVICE_RATE_BURST ?? 60);
-  return { rate: rate > 0 ? rate : 10, burst: burst > 0 ? burst : 60 };
+  if (!cached) {
+    const rate = Number(process.env.DEVICE_RATE_PER_SECOND ?? 10);
+    const burst = Number(process.env.DEVICE_RATE_BURST ?? 60);
+    cached = { rate: rate > 0 ? rate : 10, burst: burst > 0 ? burst : 60 };
+  }
+  return cached;
 }
 
 /** null when the request may go ahead; otherwise the seconds to wait. */

@@ -42,7 +42,7 @@ beforeAll(async () => {
     const headers = new Headers();
     for (let i = 0; i < req.rawHeaders.length; i += 2) headers.append(req.rawHeaders[i]!, req.rawHeaders[i + 1]!);
     const way = url.searchParams.get("way");
-    const response = way === "framework" ? await runRouteModule(modules[url.pathname] as never, frameworkRequest(req, url, headers)) : await lean.serve(req, url, headers, new AbortController().signal)!;
+    const response = way === "framework" ? await runRouteModule(modules[url.pathname] as never, frameworkRequest(req, url, headers)) : await lean.serve(req, url, headers)!;
     bodyFlowed.push(req.readableFlowing === true || req.readableEnded);
     res.writeHead(response.status, Object.fromEntries(response.headers));
     res.end(Buffer.from(await response.arrayBuffer()));
@@ -102,9 +102,9 @@ describe("the lean path", () => {
     };
     const echo = { action: async ({ request }: { request: Request }) => new Response(String((await readLimitedBytes(request, 16 * 1024))?.byteLength ?? "too large")) };
     const { leanRequest } = await import("./lean-path");
-    const fits = await runRouteModule(echo, leanRequest(request(1000), new URL("http://x/"), new Headers(), new AbortController().signal, 16 * 1024));
+    const fits = await runRouteModule(echo, leanRequest(request(1000), new URL("http://x/"), new Headers(), 16 * 1024));
     expect(await fits.text()).toBe("1000");
-    const over = await runRouteModule(echo, leanRequest(request(20_000), new URL("http://x/"), new Headers(), new AbortController().signal, 16 * 1024));
+    const over = await runRouteModule(echo, leanRequest(request(20_000), new URL("http://x/"), new Headers(), 16 * 1024));
     expect(await over.text()).toBe("too large");
   });
 });

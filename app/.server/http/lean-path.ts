@@ -23,7 +23,7 @@ export type LeanPath = {
   /** The paths it serves. */
   paths: string[];
   /** The answer for a request on one of `paths`, or null when the path is not one of them. */
-  serve(req: IncomingMessage, url: URL, headers: Headers, signal: AbortSignal): Promise<Response> | null;
+  serve(req: IncomingMessage, url: URL, headers: Headers): Promise<Response> | null;
 };
 
 /**
@@ -58,9 +58,9 @@ export function readNodeBody(req: IncomingMessage, limit: number): Promise<Buffe
 }
 
 /** A Request whose body is read from `req` only when a route asks for it, at most `limit` bytes. */
-export function leanRequest(req: IncomingMessage, url: URL, headers: Headers, signal: AbortSignal, limit: number): Request {
+export function leanRequest(req: IncomingMessage, url: URL, headers: Headers, limit: number): Request {
   const method = req.method ?? "GET";
-  const request = new Request(url, { method, headers, signal });
+  const request = new Request(url, { method, headers });
   if (method !== "GET" && method !== "HEAD") {
     let pending: Promise<Buffer | null> | undefined;
     Object.defineProperty(request, RAW_BODY, { value: () => (pending ??= readNodeBody(req, limit)) });
@@ -104,11 +104,11 @@ export function createLeanPath(routes: ServerBuild["routes"]): LeanPath {
   const table = deviceRoutes(routes);
   return {
     paths: [...table.keys()],
-    serve(req, url, headers, signal) {
+    serve(req, url, headers) {
       const module = table.get(url.pathname);
       if (!module) return null;
       const limit = DEVICE_BODY_LIMITS[url.pathname as keyof typeof DEVICE_BODY_LIMITS];
-      return runRouteModule(module, leanRequest(req, url, headers, signal, limit));
+      return runRouteModule(module, leanRequest(req, url, headers, limit));
     },
   };
 }
