@@ -5,38 +5,36 @@ cd "$ROOT"
 source scripts/lib/postgres.sh
 source scripts/lib/ensure-deps.sh
 
-# A generated auth secret, kept outside git and reused across starts.
-ensure_auth_secret() {
+# Print a secret kept in .local/<name> (outside git), generating it first with the node
+# expression given when the file is missing or empty.
+local_secret() {
+  local file=".local/$1" generate="$2"
   mkdir -p .local
-  if [[ ! -s .local/auth-secret ]]; then
-    node -e "process.stdout.write(require('node:crypto').randomBytes(32).toString('base64url'))" > .local/auth-secret
-    chmod 600 .local/auth-secret
+  if [[ ! -s "$file" ]]; then
+    node -e "process.stdout.write($generate)" > "$file"
+    chmod 600 "$file"
   fi
-  BETTER_AUTH_SECRET="$(cat .local/auth-secret)"
+  cat "$file"
+}
+RANDOM_32="require('node:crypto').randomBytes(32).toString('base64url')"
+
+# The session signing secret, reused across starts.
+ensure_auth_secret() {
+  BETTER_AUTH_SECRET="$(local_secret auth-secret "$RANDOM_32")"
   export BETTER_AUTH_SECRET
 }
 
-# The key that encrypts organisation signing keys at rest: generated once, kept outside git and
-# outside the database (a dump alone must not be able to sign a device configuration).
+# The key that encrypts organisation signing keys at rest, kept outside the database too (a
+# dump alone must not be able to sign a device configuration).
 ensure_key_encryption_key() {
-  mkdir -p .local
-  if [[ ! -s .local/key-encryption-key ]]; then
-    node -e "process.stdout.write(require('node:crypto').randomBytes(32).toString('base64url'))" > .local/key-encryption-key
-    chmod 600 .local/key-encryption-key
-  fi
-  FLYBALL_KEY_ENCRYPTION_KEY="${FLYBALL_KEY_ENCRYPTION_KEY:-$(cat .local/key-encryption-key)}"
+  FLYBALL_KEY_ENCRYPTION_KEY="${FLYBALL_KEY_ENCRYPTION_KEY:-$(local_secret key-encryption-key "$RANDOM_32")}"
   export FLYBALL_KEY_ENCRYPTION_KEY
 }
 
-# The secret webhooks from the local Stripe are signed with: generated once, kept outside git;
-# the fake reads the same file (or STRIPE_WEBHOOK_SECRET).
+# The secret webhooks from the local Stripe are signed with; the fake reads the same file (or
+# STRIPE_WEBHOOK_SECRET).
 ensure_stripe_webhook_secret() {
-  mkdir -p .local
-  if [[ ! -s .local/stripe-webhook-secret ]]; then
-    node -e "process.stdout.write('whsec_' + require('node:crypto').randomBytes(24).toString('base64url'))" > .local/stripe-webhook-secret
-    chmod 600 .local/stripe-webhook-secret
-  fi
-  STRIPE_WEBHOOK_SECRET="${STRIPE_WEBHOOK_SECRET:-$(cat .local/stripe-webhook-secret)}"
+  STRIPE_WEBHOOK_SECRET="${STRIPE_WEBHOOK_SECRET:-$(local_secret stripe-webhook-secret "'whsec_' + require('node:crypto').randomBytes(24).toString('base64url')")}"
   export STRIPE_WEBHOOK_SECRET
 }
 

@@ -8,8 +8,6 @@ import { getAuth, MIN_PASSWORD_LENGTH } from "./auth";
 import { safeNext } from "~/lib/web/safe-next";
 import { readAuthResponse, type AuthResult } from "./call-auth";
 
-export { safeNext };
-
 export const PasswordSchema = z
   .string()
   .min(MIN_PASSWORD_LENGTH, `Use at least ${MIN_PASSWORD_LENGTH} characters.`)

@@ -19,8 +19,6 @@ export type SealedJwk = { enc: "A256GCM"; iv: string; tag: string; ct: string };
 
 const cache = new Map<string, Promise<SigningKey>>();
 
-export class MissingSigningKeyError extends Error {}
-
 function keyEncryptionKey(): Buffer {
   const text = process.env.FLYBALL_KEY_ENCRYPTION_KEY ?? "";
   const key = Buffer.from(text, "base64url");
@@ -69,7 +67,7 @@ async function loadActiveKey(db: Db, organisationId: string): Promise<SigningKey
     .where(and(eq(organisationSigningKey.organisationId, organisationId), eq(organisationSigningKey.status, "active")))
     .orderBy(asc(organisationSigningKey.createdAt), asc(organisationSigningKey.id))
     .limit(1);
-  if (!row) throw new MissingSigningKeyError(`organisation ${organisationId} has no active signing key`);
+  if (!row) throw new Error(`organisation ${organisationId} has no active signing key`);
   const jwk = isSealed(row.privateJwk) ? openJwk(row.privateJwk as unknown as SealedJwk, organisationId) : row.privateJwk;
   return { kid: row.id, alg: "EdDSA", privateKey: await importJWK({ ...jwk, alg: "EdDSA" }, "EdDSA") };
 }

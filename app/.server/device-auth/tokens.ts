@@ -186,7 +186,7 @@ export function refusalOf(standing: TokenStanding): string | null {
 /**
  * Check the request's device token (signature, header and claims) without writing anything;
  * throws a 401 Response. The caller must then record the jti and check the device's standing,
- * as authenticateDevice does, or in the same statement as its own work (ingest.ts).
+ * with admitDeviceToken, or in the same statement as its own work (device-api/ingest.ts).
  */
 export async function verifyDeviceToken(request: Request, now = new Date()): Promise<VerifiedToken> {
   try {
@@ -203,11 +203,6 @@ export async function admitDeviceToken(token: VerifiedToken, { withConfigState =
   const refusal = refusalOf(standing);
   if (refusal) throw deviceUnauthorized(refusal);
   return { organisationId: token.organisationId, deviceId: token.deviceId, machineId: token.machineId, configState: standing.config_state };
-}
-
-/** Verify the request's device token and record its jti; answers the device, or throws a 401 Response. */
-export async function authenticateDevice(request: Request, { now = new Date(), withConfigState = false }: { now?: Date; withConfigState?: boolean } = {}): Promise<AuthenticatedDevice> {
-  return admitDeviceToken(await verifyDeviceToken(request, now), { withConfigState });
 }
 
 async function verify(request: Request, now: Date): Promise<VerifiedToken> {

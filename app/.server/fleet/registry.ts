@@ -33,10 +33,9 @@ export async function listCustomers(db: Db, scope: SiteScope, { page, pageSize }
       name: customer.name,
       createdAt: customer.createdAt,
       // A site manager counts only the sites assigned to them.
-      siteCount:
-        scope.siteIds === null
-          ? sql<number>`(select count(*)::int from ${site} s where s.organisation_id = "customer"."organisation_id" and s.customer_id = "customer"."id")`
-          : sql<number>`(select count(*)::int from ${site} s where s.organisation_id = "customer"."organisation_id" and s.customer_id = "customer"."id" and s.id in (${sql.join(scope.siteIds.map((id) => sql`${id}::uuid`), sql`, `)}))`,
+      siteCount: sql<number>`(select count(*)::int from ${site} s where s.organisation_id = "customer"."organisation_id" and s.customer_id = "customer"."id"${
+        scope.siteIds === null ? sql`` : sql` and s.id in (${sql.join(scope.siteIds.map((id) => sql`${id}::uuid`), sql`, `)})`
+      })`,
     })
     .from(customer)
     .where(and(...where))

@@ -3,7 +3,8 @@
 // the client is still sending makes it see a broken pipe instead of our answer. Past that, the
 // read stops and the connection is cut; nothing past the limit is ever kept in memory.
 
-const DRAIN_ALLOWANCE = 1024 * 1024;
+/** How much past a limit is read and dropped before the read stops (shared with lean-path.ts). */
+export const DRAIN_ALLOWANCE = 1024 * 1024;
 
 /**
  * scripts/serve.js's lean path puts a reader of the body on the Request under this symbol (a

@@ -10,11 +10,9 @@
 import type { IncomingMessage } from "node:http";
 import type { ServerBuild } from "react-router";
 import { DEVICE_BODY_LIMITS } from "~/.server/device-api/limits";
-import { RAW_BODY } from "./body";
+import { DRAIN_ALLOWANCE, RAW_BODY } from "./body";
 import { methodNotAllowed } from "./json";
 
-/** After an oversize body this much more is read and dropped, so the client hears our 413 rather than a reset. */
-const DRAIN_ALLOWANCE = 1024 * 1024;
 
 type RouteModule = { loader?: (args: RouteArgs) => unknown; action?: (args: RouteArgs) => unknown };
 type RouteArgs = { request: Request; params: Record<string, string>; context: Record<string, never> };

@@ -1,6 +1,7 @@
 import { data, Form, useNavigation } from "react-router";
 import { z } from "zod";
-import { safeNext, sendVerificationLink } from "~/.server/auth/accounts";
+import { sendVerificationLink } from "~/.server/auth/accounts";
+import { safeNext } from "~/lib/web/safe-next";
 import { admitEmailRequest, describeWait } from "~/.server/auth/attempt-limits";
 import { AuthFrame } from "~/components/auth-frame";
 import { Button } from "~/components/ui/button";

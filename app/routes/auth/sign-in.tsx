@@ -1,7 +1,7 @@
 import { data, Form, Link, redirect, useNavigation } from "react-router";
 import { z } from "zod";
 import { getAuth } from "~/.server/auth/auth";
-import { safeNext } from "~/.server/auth/accounts";
+import { safeNext } from "~/lib/web/safe-next";
 import { admitSignIn, describeWait, recordSignInSuccess } from "~/.server/auth/attempt-limits";
 import { authErrorCode, readAuthResponse } from "~/.server/auth/call-auth";
 import { getSessionUser } from "~/.server/auth/guards";

@@ -1,6 +1,7 @@
 import { data, Form, Link, redirect, useNavigation } from "react-router";
 import { getSessionUser } from "~/.server/auth/guards";
-import { safeNext, SignUpSchema, signUpWithPassword } from "~/.server/auth/accounts";
+import { SignUpSchema, signUpWithPassword } from "~/.server/auth/accounts";
+import { safeNext } from "~/lib/web/safe-next";
 import { admitEmailRequest, describeWait } from "~/.server/auth/attempt-limits";
 import { AuthFrame } from "~/components/auth-frame";
 import { Button } from "~/components/ui/button";
