@@ -22,6 +22,7 @@ export default [
     route("models", "routes/org/models.tsx"),
     route("developer", "routes/org/developer.tsx"),
     route("bench", "routes/org/bench.tsx"),
+    route("billing", "routes/org/billing.tsx"),
   ]),
 
   ...prefix("api", [
@@ -40,6 +41,9 @@ export default [
     route("v1/o/:slug/machines/:id", "routes/api/o/machine.ts"),
     route("v1/o/:slug/machines/:id/:command", "routes/api/o/machine-command.ts"),
     route("v1/o/:slug/loops/:id/digests", "routes/api/o/loop-digests.ts"),
+    route("v1/o/:slug/billing", "routes/api/o/billing.ts"),
+    route("v1/o/:slug/billing/:session", "routes/api/o/billing-session.ts"),
+    route("webhooks/stripe", "routes/api/webhooks/stripe.ts"),
     ...prefix("v1/compute", [
       route("margins", "routes/api/compute/margins.ts"),
       route("tune", "routes/api/compute/tune.ts"),
