@@ -40,6 +40,12 @@ export default [
     route("v1/o/:slug/machines/:id", "routes/api/o/machine.ts"),
     route("v1/o/:slug/machines/:id/:command", "routes/api/o/machine-command.ts"),
     route("v1/o/:slug/loops/:id/digests", "routes/api/o/loop-digests.ts"),
+    route("v1/o/:slug/loops/:id/health", "routes/api/o/loop-health.ts"),
+    route("v1/o/:slug/overview", "routes/api/o/overview.ts"),
+    route("v1/o/:slug/findings", "routes/api/o/findings.ts"),
+    route("v1/o/:slug/findings/acknowledge", "routes/api/o/findings-acknowledge.ts"),
+    route("v1/o/:slug/findings/:id", "routes/api/o/finding.ts"),
+    route("v1/o/:slug/findings/:id/:command", "routes/api/o/finding-command.ts"),
     ...prefix("v1/compute", [
       route("margins", "routes/api/compute/margins.ts"),
       route("tune", "routes/api/compute/tune.ts"),
