@@ -23,7 +23,7 @@ async function run(job: CronJob, handle: Db = db()) {
 }
 
 it("lists every job tested here", () => {
-  expect(JOBS.map((j) => j.name).sort()).toEqual(["device.purge-jtis", "fleet.ensure-digest-partitions", "fleet.refresh-health", "health.evaluate-machine", "health.sweep"]);
+  expect(JOBS.map((j) => j.name).sort()).toEqual(["device.purge-jtis", "fleet.ensure-digest-partitions", "fleet.refresh-health", "health.deliver-alerts", "health.evaluate-machine", "health.sweep"]);
 });
 
 describe("device.purge-jtis", () => {

@@ -4,7 +4,8 @@ import { sql } from "drizzle-orm";
 import { z } from "zod";
 import type { Db } from "~/.server/db/client";
 import { evaluateMachineHealth } from "~/.server/health/evaluate";
-import { EVALUATE_MACHINE_JOB, sendDeliverAlerts } from "~/.server/health/queue";
+import { deliverAlerts } from "~/.server/health/alerts";
+import { DELIVER_ALERTS_JOB, EVALUATE_MACHINE_JOB, sendDeliverAlerts } from "~/.server/health/queue";
 
 export type JobDefinition<S extends z.ZodType> = {
   name: string;
@@ -95,4 +96,18 @@ export const sweepFindings = defineJob({
   },
 });
 
-export const JOBS = [ensureDigestPartitions, purgeDeviceJtis, refreshFleetHealth, evaluateMachine, sweepFindings] as const;
+/**
+ * Alert e-mails for an organisation's new and escalated findings (~/.server/health/alerts.ts).
+ * Queued 30 s after a finding opens (a burst gathers into one summary), retried with backoff;
+ * a retry sends only what was not sent yet.
+ */
+export const deliverAlertsJob = defineJob({
+  name: DELIVER_ALERTS_JOB,
+  schema: z.object({ organisationId: z.string().min(1) }),
+  policy: "stately",
+  handler: async (db, { organisationId }) => {
+    await deliverAlerts(db, { organisationId });
+  },
+});
+
+export const JOBS = [ensureDigestPartitions, purgeDeviceJtis, refreshFleetHealth, evaluateMachine, sweepFindings, deliverAlertsJob] as const;
