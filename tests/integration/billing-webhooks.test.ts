@@ -85,12 +85,12 @@ describe("signature", () => {
 
     expect(await stored(event.id)).toBeUndefined();
     expect(await account(team.organisation.id)).toEqual(before);
-  });
+  }, 120_000);
 
   it("takes POST only", async () => {
     const { APP_URL } = await import("../support/http");
     expect((await fetch(`${APP_URL}/api/webhooks/stripe`)).status).toBe(405);
-  });
+  }, 120_000);
 });
 
 describe("each event once", () => {
@@ -119,7 +119,7 @@ describe("each event once", () => {
     expect(mails[0]!.text).toContain("€87.00");
     expect(mails[0]!.text).toContain(`/o/${team.organisation.slug}/billing`);
     expect((await account(team.organisation.id)).lastPaymentFailedAt).not.toBeNull();
-  });
+  }, 120_000);
 });
 
 describe("order by Stripe's times, not arrival", () => {
@@ -135,7 +135,7 @@ describe("order by Stripe's times, not arrival", () => {
     expect((await applied(created.id)).outcome).toBe("stale");
 
     expect(await account(team.organisation.id)).toMatchObject({ plan: "per_machine", status: "past_due", machinesBilled: 7, stripeSubscriptionId: subscriptionTemplate.id, stateAt: t + 60 });
-  });
+  }, 120_000);
 
   it("keeps a cancellation when an older update arrives after it, and lets a newer subscription replace it", async () => {
     const { team, customer } = await linkedTeam();
@@ -154,11 +154,11 @@ describe("order by Stripe's times, not arrival", () => {
     await deliver(fresh);
     expect((await applied(fresh.id)).outcome).toBe("applied");
     expect(await account(team.organisation.id)).toMatchObject({ status: "active", machinesBilled: 5, stripeSubscriptionId: replacement.id });
-  });
+  }, 120_000);
 
   it("ignores events of customers no organisation has", async () => {
     const event = subscriptionEvent("customer.subscription.updated", subscriptionFor("cus_nobodyknows", "active", 2), Math.floor(Date.now() / 1000));
     await deliver(event);
     expect(await applied(event.id)).toMatchObject({ outcome: "ignored", organisationId: null });
-  });
+  }, 120_000);
 });

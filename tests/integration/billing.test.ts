@@ -114,7 +114,7 @@ describe("a subscription made on the local Stripe", () => {
     await stripe.subscriptions.cancel(subscription.id);
     await eventually("cancelled in the app", async () => (await billing(slug, owner)).status === "canceled");
     expect((await postJson(`/api/v1/o/${slug}/machines`, { serial: `Q-C-${uniqueSuffix()}`, modelId: fleet.model.id, siteId: fleet.sites[0].id }, owner)).status).toBe(402);
-  });
+  }, 120_000);
 });
 
 describe("the trial", () => {
@@ -142,7 +142,7 @@ describe("the trial", () => {
     expect(viewerPage).toContain("trial has ended");
     expect(viewerPage).toContain("Ask the organisation");
     expect(viewerPage).not.toContain(`/o/${slug}/billing`);
-  });
+  }, 120_000);
 });
 
 describe("who may see billing", () => {
@@ -185,7 +185,7 @@ describe("who may see billing", () => {
     expect((await get(`/o/${slug}/billing`, stranger)).status).toBe(404);
     expect((await postForm(`/o/${slug}/billing`, { intent: "transfer", memberId: team.people[1]!.memberId }, stranger)).status).toBe(404);
     expect((await get(`/api/v1/o/${slug}/billing`)).status).toBe(401);
-  });
+  }, 120_000);
 
   it("hands ownership to another member, the old owner becoming admin, with an audit entry", async () => {
     const team = await createTeam(db(), ["owner", "engineer"]);
@@ -200,7 +200,7 @@ describe("who may see billing", () => {
     expect(audit).toHaveLength(1);
     expect(audit[0]).toMatchObject({ actor: from!.id, targetId: to!.memberId });
     expect((await get(`/api/v1/o/${team.organisation.slug}/billing`, await signIn(from!.email))).status).toBe(403);
-  });
+  }, 120_000);
 });
 
 describe("the local Stripe restarted", () => {
@@ -236,5 +236,5 @@ describe("the local Stripe restarted", () => {
     } finally {
       rmSync(dir, { recursive: true, force: true });
     }
-  });
+  }, 120_000);
 });
