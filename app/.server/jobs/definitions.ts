@@ -17,6 +17,8 @@ export type JobDefinition<S extends z.ZodType> = {
   cron?: string;
   /** pg-boss queue policy; `stately` keeps one waiting job per singleton key (debounce). */
   policy?: "standard" | "stately";
+  /** How the worker fetches (pg-boss polls every 2 s for one job unless told otherwise). */
+  work?: { batchSize?: number; pollingIntervalSeconds?: number };
   handler: (db: Db, payload: z.infer<S>) => Promise<void>;
 };
 
@@ -79,6 +81,8 @@ export const refreshFleetHealth = defineJob({
 export const applyStripeEventJob = defineJob({
   name: APPLY_EVENT_JOB,
   schema: z.object({ eventId: z.string().min(1) }),
+  // Events come in bursts (a checkout raises half a dozen): fetch many, often, apply in order.
+  work: { batchSize: 20, pollingIntervalSeconds: 0.5 },
   handler: async (db, { eventId }) => {
     await applyStripeEvent(db, { eventId });
   },
@@ -89,6 +93,7 @@ export const syncBillingQuantity = defineJob({
   name: SYNC_QUANTITY_JOB,
   schema: z.object({ organisationId: z.string().min(1) }),
   policy: SYNC_QUANTITY_QUEUE.policy,
+  work: { pollingIntervalSeconds: 0.5 },
   handler: async (db, { organisationId }) => {
     await syncQuantity(db, getStripe(), { organisationId });
   },
