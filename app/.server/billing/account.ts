@@ -177,8 +177,15 @@ export async function getBillingSummary(db: Db, stripe: Stripe, { organisationId
   }
   let nextInvoiceEstimate: { amount: number; currency: string };
   if (hasLiveSubscription(account) && account.stripeCustomerId) {
-    const preview = await stripe.invoices.createPreview({ customer: account.stripeCustomerId, subscription: account.stripeSubscriptionId! });
-    nextInvoiceEstimate = { amount: preview.amount_due, currency: preview.currency };
+    // Stripe may already have ended the subscription while its webhook is on its way: then
+    // there is no next invoice (`invoice_upcoming_none`), which is an estimate of zero.
+    const preview = await stripe.invoices
+      .createPreview({ customer: account.stripeCustomerId, subscription: account.stripeSubscriptionId! })
+      .catch((error: unknown) => {
+        if ((error as { code?: string }).code === "invoice_upcoming_none") return null;
+        throw error;
+      });
+    nextInvoiceEstimate = preview ? { amount: preview.amount_due, currency: preview.currency } : { amount: 0, currency: invoices[0]?.currency ?? "eur" };
   } else if (account.plan === "trial") {
     // No subscription to preview yet: what the first month would cost at today's machine count.
     const price = await getMachinePrice(stripe);
