@@ -3,10 +3,11 @@
 import { sql } from "drizzle-orm";
 import { z } from "zod";
 import type { Db } from "~/.server/db/client";
+import type { QueueOptions } from "~/.server/jobs/queue";
 import { refreshMachineHealth } from "~/.server/fleet/health";
 import { SYNC_QUANTITY_JOB, SYNC_QUANTITY_QUEUE, syncQuantity } from "~/.server/billing/quantity";
 import { getStripe } from "~/.server/billing/stripe";
-import { APPLY_EVENT_JOB, applyStripeEvent } from "~/.server/billing/webhooks";
+import { APPLY_EVENT_JOB, APPLY_EVENT_QUEUE, applyStripeEvent } from "~/.server/billing/webhooks";
 
 export type JobDefinition<S extends z.ZodType> = {
   name: string;
@@ -14,7 +15,7 @@ export type JobDefinition<S extends z.ZodType> = {
   /** Cron (UTC) for recurring jobs. */
   cron?: string;
   /** pg-boss queue options (e.g. `stately` to coalesce jobs by singleton key). */
-  queue?: { policy?: "standard" | "stately" };
+  queue?: QueueOptions;
   /** How the worker fetches (pg-boss polls every 2 s for one job unless told otherwise). */
   work?: { batchSize?: number; pollingIntervalSeconds?: number };
   handler: (db: Db, payload: z.infer<S>) => Promise<void>;
@@ -60,6 +61,7 @@ export const applyStripeEventJob = defineJob({
   name: APPLY_EVENT_JOB,
   schema: z.object({ eventId: z.string().min(1) }),
   // Events come in bursts (a checkout raises half a dozen): fetch many, often, apply in order.
+  queue: APPLY_EVENT_QUEUE,
   work: { batchSize: 20, pollingIntervalSeconds: 0.5 },
   handler: async (db, { eventId }) => {
     await applyStripeEvent(db, { eventId });
