@@ -57,6 +57,8 @@ export async function action({ request, params }: Route.ActionArgs) {
   }
 }
 
+export const meta: Route.MetaFunction = () => [{ title: "Billing · Flyball" }];
+
 function money(cents: number, currency: string) {
   return new Intl.NumberFormat("en-GB", { style: "currency", currency: currency.toUpperCase() }).format(cents / 100);
 }
@@ -109,13 +111,13 @@ export default function Billing({ loaderData, actionData }: Route.ComponentProps
           </dl>
           <div className="flex flex-wrap gap-2">
             {!live ? (
-              <Form method="post" reloadDocument>
+              <Form method="post">
                 <input type="hidden" name="intent" value="checkout" />
                 <Button type="submit" disabled={busy}>Start the per-machine subscription</Button>
               </Form>
             ) : null}
             {summary.stripeCustomerId ? (
-              <Form method="post" reloadDocument>
+              <Form method="post">
                 <input type="hidden" name="intent" value="portal" />
                 <Button type="submit" variant={live ? "primary" : "secondary"} disabled={busy}>Change card or cancel</Button>
               </Form>
