@@ -5,7 +5,7 @@ import { z } from "zod";
 import type { Db } from "~/.server/db/client";
 import { SYNC_QUANTITY_JOB, SYNC_QUANTITY_QUEUE, syncQuantity } from "~/.server/billing/quantity";
 import { getStripe } from "~/.server/billing/stripe";
-import { APPLY_EVENT_JOB, applyStripeEvent } from "~/.server/billing/webhooks";
+import { APPLY_EVENT_JOB, APPLY_EVENT_QUEUE, applyStripeEvent } from "~/.server/billing/webhooks";
 import { evaluateMachineHealth } from "~/.server/health/evaluate";
 import { deliverAlerts } from "~/.server/health/alerts";
 import { DELIVER_ALERTS_JOB, EVALUATE_MACHINE_JOB, sendDeliverAlerts } from "~/.server/health/queue";
@@ -17,6 +17,8 @@ export type JobDefinition<S extends z.ZodType> = {
   cron?: string;
   /** pg-boss queue policy; `stately` keeps one waiting job per singleton key (debounce). */
   policy?: "standard" | "stately";
+  /** pg-boss retries of a failed job (its defaults otherwise). */
+  retry?: { retryLimit?: number; retryDelay?: number; retryBackoff?: boolean };
   /** How the worker fetches (pg-boss polls every 2 s for one job unless told otherwise). */
   work?: { batchSize?: number; pollingIntervalSeconds?: number };
   handler: (db: Db, payload: z.infer<S>) => Promise<void>;
@@ -83,6 +85,7 @@ export const applyStripeEventJob = defineJob({
   schema: z.object({ eventId: z.string().min(1) }),
   // Events come in bursts (a checkout raises half a dozen): fetch many, often, apply in order.
   work: { batchSize: 20, pollingIntervalSeconds: 0.5 },
+  retry: APPLY_EVENT_QUEUE,
   handler: async (db, { eventId }) => {
     await applyStripeEvent(db, { eventId });
   },
