@@ -230,6 +230,10 @@ describe("roles and organisations", () => {
     expect(page.total).toBeGreaterThanOrEqual(2);
     const detail = await (await get(`${BASE}/findings/${foreignFinding}`, engineer)).json();
     expect(detail.history).toEqual([{ at: expect.any(String), state: "acknowledged", actorName: "Priya Albright", comment: "Seen in the weekly review." }]);
+    const series = await get(`${BASE}/findings/${foreignFinding}/series`, engineer);
+    expect(series.status).toBe(200);
+    expect(await series.json()).toMatchObject({ metric: "saturation.share", unit: "share", threshold: 0.05, points: [] });
+    expect((await get(`${BASE}/findings/${foreignFinding}/series`, manager)).status).toBe(404);
     const health = await get(`${BASE}/loops/${foreign.loopId}/health`, engineer);
     expect(health.status).toBe(200);
     expect(await health.json()).toMatchObject({ loopId: foreign.loopId, band: "silent", drift: { state: "learning", limit: 5 } });
