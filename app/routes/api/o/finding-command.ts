@@ -1,7 +1,7 @@
 // POST /api/v1/o/:slug/findings/:id/acknowledge {comment?} → 200 the finding
 // POST /api/v1/o/:slug/findings/:id/resolve {comment}      → 200 the finding
-// GET  /api/v1/o/:slug/findings/:id/series                → the metric per hour, threshold, tripping window
-// Capability findings:triage (viewers: 403); site managers only their sites (others: 404).
+// GET  /api/v1/o/:slug/findings/:id/series  → the metric per hour, threshold, tripping window (fleet:read)
+// Acknowledge and resolve need findings:triage (viewers: 403); site managers only their sites (others: 404).
 import { getDb } from "~/.server/db/client";
 import { apiError, invalidBody, methodNotAllowed, readJsonBody } from "~/.server/http/json";
 import { requireApiCaller } from "~/.server/fleet/api-auth";
