@@ -22,6 +22,10 @@ export default [
     route("models", "routes/org/models.tsx"),
     route("developer", "routes/org/developer.tsx"),
     route("bench", "routes/org/bench.tsx"),
+    route("gain-sets", "routes/org/gain-sets.tsx"),
+    route("gain-sets/compare", "routes/org/gain-sets-compare.tsx"),
+    route("gain-sets/:id", "routes/org/gain-set.tsx"),
+    route("audit", "routes/org/audit.tsx"),
   ]),
 
   ...prefix("api", [
@@ -40,6 +44,10 @@ export default [
     route("v1/o/:slug/machines/:id", "routes/api/o/machine.ts"),
     route("v1/o/:slug/machines/:id/:command", "routes/api/o/machine-command.ts"),
     route("v1/o/:slug/loops/:id/digests", "routes/api/o/loop-digests.ts"),
+    route("v1/o/:slug/gain-sets", "routes/api/o/gain-sets.ts"),
+    route("v1/o/:slug/gain-sets/:id", "routes/api/o/gain-set.ts"),
+    route("v1/o/:slug/gain-sets/:id/:command", "routes/api/o/gain-set-command.ts"),
+    route("v1/o/:slug/audit", "routes/api/o/audit.ts"),
     ...prefix("v1/compute", [
       route("margins", "routes/api/compute/margins.ts"),
       route("tune", "routes/api/compute/tune.ts"),
