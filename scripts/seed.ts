@@ -4,6 +4,7 @@ import { closeDb, getDb } from "~/.server/db/client";
 import { organisation } from "~/.server/db/schema";
 import { addMember, assignSite, createCustomer, createMachine, createMachineModel, createOrganisation, createSite, createUser } from "../tests/factories";
 import { DEMO_FLEETS, DEMO_ORGANISATIONS, DEMO_PASSWORD } from "./seed/demo-data";
+import { seedGainSets } from "./seed/gain-sets";
 
 export async function seedDemo(): Promise<boolean> {
   const db = getDb();
@@ -13,10 +14,12 @@ export async function seedDemo(): Promise<boolean> {
     for (const demo of DEMO_ORGANISATIONS) {
       const org = await createOrganisation(tx, { name: demo.name, slug: demo.slug });
       const members = new Map<string, string>();
+      const userIds = new Map<string, string>();
       for (const person of demo.people) {
         const created = await createUser(tx, { email: person.email, name: person.name, password: DEMO_PASSWORD });
         const membership = await addMember(tx, { organisationId: org.id, userId: created.id, role: person.role });
         members.set(person.email, membership.id);
+        userIds.set(person.email, created.id);
       }
       const sitesByCustomer = new Map<string, string[]>();
       const siteIdsByName = new Map<string, string>();
@@ -45,6 +48,7 @@ export async function seedDemo(): Promise<boolean> {
             });
           }
         }
+        await seedGainSets(tx, { organisationId: org.id, slug: demo.slug, templates: model.templates, users: userIds });
       }
       for (const assignment of demo.siteManagers) {
         for (const siteId of sitesByCustomer.get(assignment.customer) ?? []) {

@@ -3,25 +3,32 @@ import { data, Link } from "react-router";
 import { z } from "zod";
 import { requireCapableMember } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
-import { getGainSet, type GainSetDetail } from "~/.server/tuning/gain-sets";
+import { getGainSet, listGainSets, type GainSetDetail } from "~/.server/tuning/gain-sets";
 import { formatGain, formatNumber, formatTime } from "~/components/bench/format";
 import { CHART_COLORS, TimeChart } from "~/components/bench/time-chart";
-import { GainSetStateBadge } from "~/components/gain-sets/state-badge";
+import { ComparePicker } from "~/components/gain-sets/compare-picker";
+import { GainSetStateBadge, STATE_WORDS } from "~/components/gain-sets/state-badge";
 import { PageHeader } from "~/components/org-shell";
 import { Notice } from "~/components/ui/notice";
 import { simulateGainSetResponses } from "~/lib/gain-sets/responses";
 import type { Route } from "./+types/gain-sets-compare";
 
-const QuerySchema = z.object({ a: z.uuid(), b: z.uuid() });
+const QuerySchema = z.object({ a: z.uuid("Choose the first gain set."), b: z.uuid("Choose the second gain set.") });
 
 export async function loader({ request, params }: Route.LoaderArgs) {
   const membership = await requireCapableMember(request, params.slug, "registry:read");
-  const query = QuerySchema.safeParse(Object.fromEntries(new URL(request.url).searchParams));
-  if (!query.success) throw data({ message: "Choose two gain sets to compare (?a=…&b=…)." }, { status: 400 });
+  const search = new URL(request.url).searchParams;
   const scope = { organisationId: membership.organisation.id };
+  const slug = membership.organisation.slug;
+  const all = await listGainSets(getDb(), scope, { page: 1, pageSize: 200 });
+  const versions = all.items.map((g) => ({ id: g.id, label: `${g.template.key} v${g.version} (${STATE_WORDS[g.state].toLowerCase()})` }));
+  // Without a pair the page asks for one.
+  if (!search.has("a") && !search.has("b")) return { pair: null, versions, slug };
+  const query = QuerySchema.safeParse(Object.fromEntries(search));
+  if (!query.success) throw data({ message: "Choose two gain sets to compare." }, { status: 400 });
   const [a, b] = await Promise.all([getGainSet(getDb(), { ...scope, id: query.data.a }), getGainSet(getDb(), { ...scope, id: query.data.b })]);
   if (!a || !b) throw data({ message: "No such gain set." }, { status: 404 });
-  return { a, b, slug: membership.organisation.slug };
+  return { pair: { a, b }, versions, slug };
 }
 
 const COLORS = { a: CHART_COLORS.output, b: CHART_COLORS.model } as const;
@@ -42,8 +49,26 @@ function useResponses(g: GainSetDetail) {
 const label = (g: GainSetDetail) => `${g.template.key} v${g.version}`;
 
 export default function ComparePage({ loaderData }: Route.ComponentProps) {
-  const { a, b, slug } = loaderData;
+  const { pair, versions, slug } = loaderData;
   const base = `/o/${slug}`;
+  if (!pair) {
+    return (
+      <>
+        <PageHeader title="Compare gain sets" crumbs={[{ label: "Gain sets", to: `${base}/gain-sets` }, { label: "Compare" }]} description="Pick two versions: their gains side by side, step and load responses on the reference model, and margins." />
+        <div className="px-4 py-5 sm:px-8">
+          {versions.length >= 1 ? (
+            <ComparePicker action={`${base}/gain-sets/compare`} versions={versions} />
+          ) : (
+            <p className="text-sm text-ink-soft">There are no gain sets to compare yet. Save some from the <Link to={`${base}/bench`} className="link-in-text">tuning bench</Link>.</p>
+          )}
+        </div>
+      </>
+    );
+  }
+  return <Comparison a={pair.a} b={pair.b} base={base} versions={versions} />;
+}
+
+function Comparison({ a, b, base, versions }: { a: GainSetDetail; b: GainSetDetail; base: string; versions: { id: string; label: string }[] }) {
   const ra = useResponses(a);
   const rb = useResponses(b);
   const sameTemplate = a.loopTemplateId === b.loopTemplateId;
@@ -141,6 +166,10 @@ export default function ComparePage({ loaderData }: Route.ComponentProps) {
           Linear responses around the operating point: the plant starts at rest and the controller's output limits are not applied. Reference model of {a.template.key}:{" "}
           {a.template.referenceModel ? describePlant(a.template.referenceModel) : "none"}.
         </p>
+        <section aria-labelledby="other-pair" className="rounded-md border border-rule bg-white px-4 py-3">
+          <h2 id="other-pair" className="text-sm font-semibold text-ink">Compare another pair</h2>
+          <ComparePicker action={`${base}/gain-sets/compare`} versions={versions} a={a.id} b={b.id} />
+        </section>
       </div>
     </>
   );

@@ -4,6 +4,7 @@ import { requireCapableMember } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
 import { listBenchTemplates, listGainSets } from "~/.server/tuning/gain-sets";
 import { formatGain, formatNumber } from "~/components/bench/format";
+import { ComparePicker } from "~/components/gain-sets/compare-picker";
 import { GainSetStateBadge, STATE_WORDS } from "~/components/gain-sets/state-badge";
 import { PageHeader } from "~/components/org-shell";
 import { buttonClass } from "~/components/ui/button";
@@ -135,19 +136,7 @@ export default function GainSetsPage({ loaderData }: Route.ComponentProps) {
           <section aria-labelledby="compare-title" className="rounded-md border border-rule bg-white px-4 py-4">
             <h2 id="compare-title" className="text-sm font-semibold text-ink">Compare two versions</h2>
             <p className="mt-0.5 text-xs text-ink-faint">Gains side by side, step and load responses on the template's reference model, and margins.</p>
-            <Form method="get" action={`${base}/gain-sets/compare`} className="mt-3 flex flex-wrap items-end gap-3">
-              {(["a", "b"] as const).map((name, i) => (
-                <label key={name} className="text-xs font-medium text-ink">
-                  {name === "a" ? "First" : "Second"}
-                  <select name={name} defaultValue={versions[Math.min(i, versions.length - 1)]!.id} className="mt-1 block w-64 max-w-full rounded-md border border-rule-strong bg-white px-2.5 py-1.5 text-sm font-normal">
-                    {versions.map((v) => (
-                      <option key={v.id} value={v.id}>{v.label}</option>
-                    ))}
-                  </select>
-                </label>
-              ))}
-              <button type="submit" className={buttonClass("secondary")}>Compare</button>
-            </Form>
+            <ComparePicker action={`${base}/gain-sets/compare`} versions={versions} />
           </section>
         ) : null}
       </div>
