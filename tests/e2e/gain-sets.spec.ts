@@ -26,7 +26,7 @@ test("a bench draft is proposed by one engineer and approved by another", async 
   await expect(first).toHaveURL(/\/o\/corvid\/gain-sets\/[0-9a-f-]{36}$/);
   const url = first.url();
   await expect(first.getByText("Draft", { exact: true }).first()).toBeVisible();
-  await expect(first.getByText("Browser test: slightly slower integral than v1.")).toBeVisible();
+  await expect(first.locator("p", { hasText: "Rationale:" })).toContainText("Browser test: slightly slower integral than v1.");
   await first.getByRole("button", { name: /^Propose v\d+$/ }).click();
   await expect(first.getByText(/Proposed v\d+ — every check passed/)).toBeVisible();
 
@@ -65,11 +65,12 @@ test("the comparison view and the audit log", async ({ page }) => {
   await expect(page).toHaveURL(/gain-sets\/compare\?a=.+&b=.+/);
   await expect(page.getByRole("heading", { name: "Compare zone_1 v1 and zone_1 v2" })).toBeVisible();
   const step = page.locator("figure").filter({ hasText: "Set-point step of 1 °C" });
-  await expect(step.locator("svg").first()).toBeVisible();
+  const plot = step.locator("svg[aria-label]").first();
+  await expect(plot).toBeVisible();
   await expect(page.locator("figure").filter({ hasText: "Load step of" })).toBeVisible();
   await expect(page.getByRole("rowheader", { name: /Phase margin/ })).toBeVisible();
   // The tooltip gives exact values.
-  await step.locator("svg").first().hover({ position: { x: 220, y: 90 } });
+  await plot.hover({ position: { x: 220, y: 90 } });
   await expect(page.getByText(/^t = /)).toBeVisible();
   await page.screenshot({ path: "data/screenshots/gain-sets-compare-desktop.png", fullPage: true });
   await page.setViewportSize({ width: 390, height: 844 });
