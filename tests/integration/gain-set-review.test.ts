@@ -6,7 +6,7 @@ import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { auditEvent, gainSet, gainSetHistory, loopTemplate, organisation, user } from "~/.server/db/schema";
 import { closeDb, db } from "../support/db";
 import { addMember, createUser, uniqueSuffix } from "../factories";
-import { get, postForm, postJson, signIn, type Session } from "../support/http";
+import { APP_URL, get, postForm, postJson, signIn, type Session } from "../support/http";
 
 afterAll(closeDb);
 
@@ -290,6 +290,31 @@ describe("roles and tenancy", () => {
     const foreign = await postJson(API, body({ loopTemplateId: pellworthFlowId }), engineer);
     expect(foreign.status).toBe(404);
     expect((await get(`/o/pellworth/gain-sets/${id}`, outsider)).status).toBe(404);
+  });
+});
+
+describe("API tokens", () => {
+  it("lets a write token draft and propose (empty body too), never approve or override, and audits it as the token", async () => {
+    const page = await postForm("/o/corvid/developer", { intent: "create-token", name: `gain-sets-${uniqueSuffix()}`, scope: "write" }, admin);
+    expect(page.status).toBe(200);
+    const secret = (await page.text()).match(/fbk_[A-Za-z0-9_-]{20,}/)![0];
+    const call = (path: string, init: RequestInit = {}) =>
+      fetch(`${APP_URL}${path}`, { ...init, redirect: "manual", headers: { authorization: `Bearer ${secret}`, ...(init.body ? { "content-type": "application/json" } : {}) } });
+    const created = await call(API, { method: "POST", body: JSON.stringify(body()) });
+    expect(created.status).toBe(201);
+    const { id } = (await created.json()) as { id: string };
+    const outside = await call(API, { method: "POST", body: JSON.stringify(body({ gains: { kp: 45, ki: 0.04, kd: 0 } })) });
+    const outsideId = ((await outside.json()) as { id: string }).id;
+    const override = await call(`${API}/${outsideId}/propose`, { method: "POST", body: JSON.stringify({ override: { reason: "A token cannot take this responsibility." } }) });
+    expect(override.status).toBe(403);
+    expect((await snapshot(outsideId)).state).toBe("draft");
+    const proposed = await call(`${API}/${id}/propose`, { method: "POST" });
+    expect(proposed.status).toBe(200);
+    const approve = await call(`${API}/${id}/approve`, { method: "POST", body: "{}" });
+    expect(approve.status).toBe(403);
+    expect((await snapshot(id)).state).toBe("proposed");
+    const [drafted] = await db().select().from(auditEvent).where(and(eq(auditEvent.targetId, id), eq(auditEvent.action, "gain_set.drafted")));
+    expect(drafted!.actor).toMatch(/^token:/);
   });
 });
 

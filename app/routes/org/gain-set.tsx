@@ -256,7 +256,7 @@ export default function GainSetPage({ loaderData }: Route.ComponentProps) {
           </section>
         </div>
 
-        <aside className="min-w-0 space-y-4" aria-label="Actions">
+        <section className="min-w-0 space-y-4" aria-label="Actions">
           {g.state === "draft" && canTune ? (
             <Form method="post" className="space-y-2 rounded-md border border-rule bg-white px-4 py-3">
               <h2 className="text-sm font-semibold text-ink">Propose for approval</h2>
@@ -337,7 +337,7 @@ export default function GainSetPage({ loaderData }: Route.ComponentProps) {
               </Form>
             </details>
           ) : null}
-        </aside>
+        </section>
       </div>
     </>
   );
