@@ -33,7 +33,6 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 type ActionResult = { ok: true; message: string } | { ok: false; message: string; failed?: { name: string; message: string }[] };
 
 const IntentSchema = z.object({ intent: z.enum(["propose", "approve", "reject", "revise"]) });
-const optionalNumber = z.preprocess((v) => (v === "" || v === undefined ? undefined : Number(v)), z.number().optional());
 
 export async function action({ request, params }: Route.ActionArgs) {
   const membership = await requireMembership(request, params.slug);
@@ -71,7 +70,8 @@ export async function action({ request, params }: Route.ActionArgs) {
         requireCapability(membership, "tuning:use");
         const current = await getGainSet(db, { organisationId: scope.organisationId, id: params.id });
         if (!current) throw data({ message: "No such gain set." }, { status: 404 });
-        const num = (name: string) => optionalNumber.parse(form[name]);
+        // Left to the schema: an empty field is absent, anything else a number or its issue.
+        const num = (name: string) => (form[name] === undefined || form[name] === "" ? undefined : Number(form[name]));
         const gains = current.form === "parallel" ? { kp: num("kp"), ki: num("ki"), kd: num("kd") } : { kc: num("kc"), ti: text("ti") === "" ? null : num("ti"), td: num("td") };
         const input = CreateGainSetSchema.safeParse({
           loopTemplateId: current.loopTemplateId,
