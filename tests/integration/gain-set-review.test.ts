@@ -335,6 +335,25 @@ describe("the pages", () => {
     expect((await snapshot(id)).state).toBe("approved");
   });
 
+  it("makes a revision a new draft, refusing bad numbers with nothing stored", async () => {
+    const { id } = await create();
+    await postJson(`${API}/${id}/propose`, {}, engineer);
+    const before = await gainSetCount();
+    const fields = { intent: "revise", kp: "7", ki: "0.045", kd: "0", filterN: "", setpointWeight: "0.8", integratorMin: "0", integratorMax: "255", antiWindup: "back_calculation", note: "revised" };
+    const bad = await postForm(`/o/corvid/gain-sets/${id}`, { ...fields, kp: "seven" }, engineer2);
+    expect(bad.status).toBe(400);
+    expect(await gainSetCount()).toBe(before);
+    const viewerTry = await postForm(`/o/corvid/gain-sets/${id}`, fields, viewer);
+    expect(viewerTry.status).toBe(403);
+    expect(await gainSetCount()).toBe(before);
+    const good = await postForm(`/o/corvid/gain-sets/${id}`, fields, engineer2);
+    expect(good.status).toBe(302);
+    const newId = good.headers.get("location")!.split("/").at(-1)!;
+    const detail = await (await get(`${API}/${newId}`, engineer)).json();
+    expect(detail).toMatchObject({ state: "draft", basedOn: { id }, setpointWeight: 0.8, antiWindup: "back_calculation", gains: { kp: 7, ki: 0.045, kd: 0 } });
+    expect((await snapshot(id)).state).toBe("proposed");
+  });
+
   it("opens the comparison of two versions", async () => {
     const a = await create();
     const b = await create({ gains: { kp: 7, ki: 0.045, kd: 0 } });
