@@ -224,7 +224,7 @@ export async function createGainSet(
         createdBy: actor,
       })
       .returning();
-    await tx.insert(gainSetHistory).values({ organisationId, gainSetId: created!.id, state: "draft", actor, comment: basedOn ? `Revision of v${basedOn.version}.` : "" });
+    await tx.insert(gainSetHistory).values({ organisationId, gainSetId: created!.id, state: "draft", actor, comment: basedOn ? `Revision of v${basedOn.version}.` : "", at: sql`clock_timestamp()` });
     await recordAudit(tx, {
       organisationId,
       actor,
@@ -400,19 +400,23 @@ async function transition(
   row: GainSetRow,
   { actor, state, comment, action, set, detail }: { actor: string; state: GainSetState; comment: string; action: string; set: Partial<typeof gainSet.$inferInsert>; detail?: Record<string, unknown> },
 ): Promise<GainSetRow> {
+  const [{ key: templateKey }] = (await tx
+    .select({ key: loopTemplate.key })
+    .from(loopTemplate)
+    .where(and(eq(loopTemplate.organisationId, row.organisationId), eq(loopTemplate.id, row.loopTemplateId)))) as [{ key: string }];
   const [updated] = await tx
     .update(gainSet)
     .set({ state, ...set })
     .where(and(eq(gainSet.organisationId, row.organisationId), eq(gainSet.id, row.id)))
     .returning();
-  await tx.insert(gainSetHistory).values({ organisationId: row.organisationId, gainSetId: row.id, state, actor, comment });
+  await tx.insert(gainSetHistory).values({ organisationId: row.organisationId, gainSetId: row.id, state, actor, comment, at: sql`clock_timestamp()` });
   await recordAudit(tx, {
     organisationId: row.organisationId,
     actor,
     action,
     targetType: "gain_set",
     targetId: row.id,
-    detail: { version: row.version, ...(comment ? { comment } : {}), ...detail },
+    detail: { version: row.version, template: templateKey, ...(comment ? { comment } : {}), ...detail },
     before: stateView(row),
     after: stateView(updated!),
   });

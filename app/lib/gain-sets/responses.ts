@@ -22,7 +22,8 @@ export const MAX_RESPONSE_SAMPLES = 20_000;
 /** A duration that shows the loop settle: several of the plant's time constants and its dead time. */
 export function responseDuration(plant: PlantModel, samplePeriod: number): number {
   const slow = plant.type === "fopdt" ? plant.timeConstant : plant.type === "sopdt" ? plant.timeConstant + plant.timeConstant2 : plant.type === "ipdt" ? 4 * plant.deadTime : 10;
-  const wanted = 8 * (slow + (plant.deadTime ?? 0)) + 20 * samplePeriod;
+  // Long enough for a loop with sensible margins to settle after a step or a load.
+  const wanted = 2.5 * slow + 12 * (plant.deadTime ?? 0) + 20 * samplePeriod;
   return Math.min(wanted, samplePeriod * MAX_RESPONSE_SAMPLES);
 }
 

@@ -3,6 +3,7 @@ import { listAuditEvents, listAuditFacets, type AuditItem } from "~/.server/audi
 import { requireCapableMember } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
 import { PageHeader } from "~/components/org-shell";
+import { formatGain } from "~/components/bench/format";
 import { buttonClass } from "~/components/ui/button";
 import { AuditQuerySchema } from "~/lib/gain-sets/schemas";
 import type { Route } from "./+types/audit";
@@ -19,21 +20,48 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   return { log, facets, slug: membership.organisation.slug };
 }
 
+const show = (v: unknown): string => {
+  if (v === undefined || v === null || v === "") return "–";
+  if (typeof v === "object" && v !== null && "kp" in v && "ki" in v && "kd" in v) {
+    const g = v as { kp: number; ki: number; kd: number };
+    return `kp ${formatGain(g.kp)}, ki ${formatGain(g.ki)}, kd ${formatGain(g.kd)}`;
+  }
+  if (typeof v === "number") return formatGain(v);
+  return typeof v === "object" ? JSON.stringify(v) : String(v);
+};
+
+/** The order fields are shown in (jsonb keeps its own order). */
+const FIRST = ["version", "state", "role", "status", "gains", "serial", "email", "userId"];
+const ordered = (keys: string[]) => [...keys].sort((a, b) => (FIRST.indexOf(a) + 1 || 99) - (FIRST.indexOf(b) + 1 || 99) || a.localeCompare(b));
+
 /** The fields that changed between before and after, as "field: old → new". */
 function changes(item: AuditItem): string[] {
   const before = item.before ?? {};
   const after = item.after ?? {};
-  const show = (v: unknown) => (v === undefined || v === null ? "–" : typeof v === "object" ? JSON.stringify(v) : String(v));
-  if (!item.before && item.after) return [`created: ${Object.entries(after).slice(0, 4).map(([k, v]) => `${k} ${show(v)}`).join(", ")}`];
-  if (item.before && !item.after) return ["removed"];
-  return [...new Set([...Object.keys(before), ...Object.keys(after)])]
+  if (!item.before && item.after) {
+    return [`created: ${ordered(Object.keys(after)).filter((k) => after[k] !== null && after[k] !== "").slice(0, 4).map((k) => `${k} ${show(after[k])}`).join("; ")}`];
+  }
+  if (item.before && !item.after) return [`removed: ${ordered(Object.keys(before)).slice(0, 3).map((k) => `${k} ${show(before[k])}`).join("; ")}`];
+  return ordered([...new Set([...Object.keys(before), ...Object.keys(after)])])
     .filter((k) => JSON.stringify(before[k]) !== JSON.stringify(after[k]))
     .map((k) => `${k}: ${show(before[k])} → ${show(after[k])}`);
 }
 
+/** What the event was about, in words: "gain set zone_1 v4", "member", "machine CTM-EX-1001". */
+function targetText(item: AuditItem): string {
+  const d = item.detail as { template?: string; version?: number; serial?: string; email?: string };
+  const kind = item.targetType.replace(/_/g, " ");
+  if (item.targetType === "gain_set" && d.template) return `${kind} ${d.template} v${d.version ?? ""}`.trim();
+  if (d.serial) return `${kind} ${d.serial}`;
+  if (d.email) return `${kind} ${d.email}`;
+  return kind;
+}
+
+const SHOWN_ELSEWHERE = new Set(["template", "version", "serial"]);
+
 function detailText(item: AuditItem): string {
   return Object.entries(item.detail)
-    .filter(([, v]) => v !== null && v !== undefined && v !== "")
+    .filter(([k, v]) => v !== null && v !== undefined && v !== "" && !SHOWN_ELSEWHERE.has(k))
     .slice(0, 5)
     .map(([k, v]) => `${k} ${typeof v === "object" ? JSON.stringify(v) : String(v)}`)
     .join(" · ");
@@ -127,7 +155,7 @@ export default function AuditPage({ loaderData }: Route.ComponentProps) {
                       <td className="px-3 py-1.5 text-ink">{item.actor.name}{item.actor.email ? <div className="text-xs text-ink-faint">{item.actor.email}</div> : null}</td>
                       <td className="whitespace-nowrap px-3 py-1.5 font-mono text-xs text-ink">{item.action}</td>
                       <td className="px-3 py-1.5 text-ink-soft">
-                        {item.targetType === "gain_set" && item.targetId ? <Link to={`/o/${slug}/gain-sets/${item.targetId}`} className="link-in-text">gain set</Link> : item.targetType.replace(/_/g, " ")}
+                        {item.targetType === "gain_set" && item.targetId ? <Link to={`/o/${slug}/gain-sets/${item.targetId}`} className="link-in-text whitespace-nowrap">{targetText(item)}</Link> : targetText(item)}
                       </td>
                       <td className="max-w-xl px-3 py-1.5 text-xs text-ink-soft">
                         {changed.length ? <ul>{changed.map((c) => <li key={c} className="break-words">{c}</li>)}</ul> : null}

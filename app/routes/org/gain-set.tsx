@@ -104,6 +104,17 @@ export async function action({ request, params }: Route.ActionArgs) {
   }
 }
 
+/** The bench's figures (simulated on the bench's own plant model), in words and units. */
+const FIGURE_LABELS: Record<string, [string, string?]> = {
+  gainMargin: ["Gain margin"],
+  phaseMargin: ["Phase margin", "°"],
+  peakSensitivity: ["Peak sensitivity Ms"],
+  overshootPercent: ["Overshoot", "%"],
+  settlingTime: ["Settling time", "s"],
+  iae: ["IAE"],
+  saturatedFraction: ["Time saturated", "%"],
+};
+
 function Row({ label, children, unit }: { label: string; children: React.ReactNode; unit?: string }) {
   return (
     <div className="flex justify-between gap-4 py-1">
@@ -204,11 +215,13 @@ export default function GainSetPage({ loaderData }: Route.ComponentProps) {
             <h2 id="origin-title" className="text-sm font-semibold text-ink">Where they came from</h2>
             <dl className="mt-2 grid gap-x-8 text-sm sm:grid-cols-2">
               <Row label="Rule">{g.origin.rule ?? "entered by hand"}{g.origin.controller ? ` (${g.origin.controller})` : ""}</Row>
-              <Row label="Plant model">
+              <Row label="Bench plant model">
                 {g.origin.model ? `K ${formatGain(g.origin.model.gain)}, τ ${formatTime(g.origin.model.timeConstant)} s, θ ${formatTime(g.origin.model.deadTime)} s` : "–"}
               </Row>
               {Object.entries(g.origin.figures).map(([name, value]) => (
-                <Row key={name} label={name}>{formatNumber(value, 4)}</Row>
+                <Row key={name} label={`${FIGURE_LABELS[name]?.[0] ?? name} (bench)`} unit={value === null ? undefined : FIGURE_LABELS[name]?.[1]}>
+                  {name === "saturatedFraction" && value !== null ? formatNumber(value * 100, 3) : formatNumber(value, 4)}
+                </Row>
               ))}
             </dl>
             <p className="mt-2 text-sm text-ink-soft"><span className="font-medium text-ink">Rationale: </span>{g.note || "none given"}</p>
