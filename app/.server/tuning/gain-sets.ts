@@ -458,7 +458,7 @@ export async function proposeGainSet(
         action: "gain_set.checks_overridden",
         targetType: "gain_set",
         targetId: row.id,
-        detail: { version: row.version, reason: override.reason, failed: failed.map((c) => ({ name: c.name, message: c.message })) },
+        detail: { version: row.version, template: template!.key, reason: override.reason, failed: failed.map((c) => ({ name: c.name, message: c.message })) },
       });
     }
     const updated = await transition(tx, row, {

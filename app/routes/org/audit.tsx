@@ -153,11 +153,11 @@ export default function AuditPage({ loaderData }: Route.ComponentProps) {
                     <tr key={item.id}>
                       <td className="whitespace-nowrap px-3 py-1.5 tabular text-ink-soft"><time dateTime={item.at}>{item.at.replace("T", " ").slice(0, 19)}</time></td>
                       <td className="px-3 py-1.5 text-ink">{item.actor.name}{item.actor.email ? <div className="text-xs text-ink-faint">{item.actor.email}</div> : null}</td>
-                      <td className="whitespace-nowrap px-3 py-1.5 font-mono text-xs text-ink">{item.action}</td>
+                      <td className="px-3 py-1.5 font-mono text-xs break-all text-ink">{item.action}</td>
                       <td className="px-3 py-1.5 text-ink-soft">
-                        {item.targetType === "gain_set" && item.targetId ? <Link to={`/o/${slug}/gain-sets/${item.targetId}`} className="link-in-text whitespace-nowrap">{targetText(item)}</Link> : targetText(item)}
+                        {item.targetType === "gain_set" && item.targetId ? <Link to={`/o/${slug}/gain-sets/${item.targetId}`} className="link-in-text">{targetText(item)}</Link> : targetText(item)}
                       </td>
-                      <td className="max-w-xl px-3 py-1.5 text-xs text-ink-soft">
+                      <td className="min-w-64 max-w-xl px-3 py-1.5 text-xs text-ink-soft">
                         {changed.length ? <ul>{changed.map((c) => <li key={c} className="break-words">{c}</li>)}</ul> : null}
                         {detail ? <p className="break-words text-ink-faint">{detail}</p> : null}
                       </td>
