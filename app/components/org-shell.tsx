@@ -18,6 +18,7 @@ export const NAV_ITEMS: NavItem[] = [
   { to: "team", label: "Team", capability: "team:read" },
   { to: "developer", label: "Developer", capability: "registry:manage" },
   { to: "audit", label: "Audit log", capability: "audit:read" },
+  { to: "billing", label: "Billing", capability: "billing:manage" },
 ];
 
 export function OrgShell({
