@@ -6,6 +6,7 @@ import { addMember, assignSite, createCustomer, createMachine, createMachineMode
 import { getStripe } from "~/.server/billing/stripe";
 import { seedDemoBilling } from "./seed/billing";
 import { DEMO_FLEETS, DEMO_ORGANISATIONS, DEMO_PASSWORD } from "./seed/demo-data";
+import { seedGainSets } from "./seed/gain-sets";
 
 export async function seedDemo(): Promise<boolean> {
   const db = getDb();
@@ -15,10 +16,12 @@ export async function seedDemo(): Promise<boolean> {
     for (const demo of DEMO_ORGANISATIONS) {
       const org = await createOrganisation(tx, { name: demo.name, slug: demo.slug });
       const members = new Map<string, string>();
+      const userIds = new Map<string, string>();
       for (const person of demo.people) {
         const created = await createUser(tx, { email: person.email, name: person.name, password: DEMO_PASSWORD });
         const membership = await addMember(tx, { organisationId: org.id, userId: created.id, role: person.role });
         members.set(person.email, membership.id);
+        userIds.set(person.email, created.id);
       }
       const sitesByCustomer = new Map<string, string[]>();
       const siteIdsByName = new Map<string, string>();
@@ -47,6 +50,7 @@ export async function seedDemo(): Promise<boolean> {
             });
           }
         }
+        await seedGainSets(tx, { organisationId: org.id, slug: demo.slug, templates: model.templates, users: userIds });
       }
       for (const assignment of demo.siteManagers) {
         for (const siteId of sitesByCustomer.get(assignment.customer) ?? []) {
