@@ -1,6 +1,6 @@
 // Trends of one loop's IAE, saturation share and clamped-integrator share, fetched in the
 // browser from the management API through TanStack Query.
-import { keepPreviousData, QueryClient, QueryClientProvider, useQuery } from "@tanstack/react-query";
+import { keepPreviousData, useQuery } from "@tanstack/react-query";
 import { useState } from "react";
 import { TrendChart } from "~/components/charts/trend-chart";
 
@@ -73,10 +73,5 @@ function Trends({ slug, loops }: { slug: string; loops: TrendLoop[] }) {
 }
 
 export function LoopTrends(props: { slug: string; loops: TrendLoop[] }) {
-  const [client] = useState(() => new QueryClient({ defaultOptions: { queries: { staleTime: 30_000, retry: 1 } } }));
-  return (
-    <QueryClientProvider client={client}>
-      <Trends {...props} />
-    </QueryClientProvider>
-  );
+  return <Trends {...props} />;
 }
