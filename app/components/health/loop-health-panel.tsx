@@ -24,7 +24,7 @@ function Figure({ label, value, unit, note, tone }: { label: string; value: stri
   );
 }
 
-export function LoopHealthPanel({ health, loopName }: { health: LoopHealth; loopName: string }) {
+export function LoopHealthPanel({ health, loopName, reportHref }: { health: LoopHealth; loopName: string; reportHref?: string }) {
   const { saturation, windup, oscillation, drift } = health;
   const slope = saturation.slopePerDay;
   const slopeNote =
@@ -36,7 +36,8 @@ export function LoopHealthPanel({ health, loopName }: { health: LoopHealth; loop
       <div className="flex flex-wrap items-center justify-between gap-2">
         <h2 id="loop-health-heading" className="font-semibold">Health of {loopName}</h2>
         <span className="flex items-center gap-2 text-xs text-ink-faint">
-          last digest {formatAgo(health.lastDigestAt)}
+          {reportHref ? <a href={reportHref} className="text-accent hover:underline">Health report</a> : null}
+          <span>last digest {formatAgo(health.lastDigestAt)}</span>
           <HealthBadge band={health.band} score={health.score} />
         </span>
       </div>

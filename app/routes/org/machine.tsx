@@ -155,7 +155,7 @@ export default function MachinePage({ loaderData, actionData }: Route.ComponentP
             ))}
           </nav>
         ) : null}
-        {selectedLoop && loopHealth ? <LoopHealthPanel health={loopHealth} loopName={selectedLoop.name} /> : null}
+        {selectedLoop && loopHealth ? <LoopHealthPanel health={loopHealth} loopName={selectedLoop.name} reportHref={`/o/${slug}/reports/loop/${selectedLoop.id}`} /> : null}
 
         <section aria-labelledby="machine-findings-heading" className="rounded-xl border border-rule bg-white p-4">
           <div className="flex flex-wrap items-baseline justify-between gap-2">

@@ -72,6 +72,7 @@ export default function OverviewPage({ loaderData }: Route.ComponentProps) {
           <FilterSelect label="Model" name="modelId" value={query.modelId} anyLabel="All models" options={options.models.map((m) => ({ value: m.id, label: m.name }))} />
           <button className={buttonClass("secondary", "py-1.5")}>Apply</button>
           {filtered ? <Link to="?" className="px-2 py-1.5 text-sm text-accent hover:underline">Clear filters</Link> : null}
+          {query.siteId ? <a href={`${base}/reports/site/${query.siteId}`} className="px-2 py-1.5 text-sm text-accent hover:underline">Site health report</a> : null}
           <p className="ml-auto text-xs text-ink-faint" aria-live="polite">
             {navigating ? "Loading…" : live.isError ? (live.error as Error).message : live.isFetching ? "Refreshing…" : `Refreshed ${new Date(live.dataUpdatedAt).toLocaleTimeString("en-GB", { timeZone: "UTC" })} UTC, every 30 s`}
           </p>
