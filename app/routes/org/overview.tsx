@@ -72,7 +72,6 @@ export default function OverviewPage({ loaderData }: Route.ComponentProps) {
           <FilterSelect label="Model" name="modelId" value={query.modelId} anyLabel="All models" options={options.models.map((m) => ({ value: m.id, label: m.name }))} />
           <button className={buttonClass("secondary", "py-1.5")}>Apply</button>
           {filtered ? <Link to="?" className="px-2 py-1.5 text-sm text-accent hover:underline">Clear filters</Link> : null}
-          {query.siteId ? <a href={`${base}/reports/site/${query.siteId}`} className="px-2 py-1.5 text-sm text-accent hover:underline">Site health report</a> : null}
           <p className="ml-auto text-xs text-ink-faint" aria-live="polite">
             {navigating ? "Loading…" : live.isError ? (live.error as Error).message : live.isFetching ? "Refreshing…" : `Refreshed ${new Date(live.dataUpdatedAt).toLocaleTimeString("en-GB", { timeZone: "UTC" })} UTC, every 30 s`}
           </p>
@@ -93,6 +92,21 @@ export default function OverviewPage({ loaderData }: Route.ComponentProps) {
         ) : (
           <OverviewPanels overview={overview} base={base} search={search} />
         )}
+        {options.sites.length ? (
+          <section aria-labelledby="reports-heading" className="rounded-xl border border-rule bg-white p-4">
+            <h2 id="reports-heading" className="font-semibold">Health reports</h2>
+            <p className="mt-1 text-xs text-ink-faint">Every loop of a site on one printable page, or as CSV for a spreadsheet.</p>
+            <ul className="mt-2 flex flex-wrap gap-x-4 gap-y-1 text-sm">
+              {options.sites.map((s) => (
+                <li key={s.id}>
+                  <a href={`${base}/reports/site/${s.id}`} className="text-accent hover:underline">{s.name}</a>
+                  <span className="text-ink-faint"> · {s.customerName} · </span>
+                  <a href={`${base}/reports/site/${s.id}/csv`} className="text-accent hover:underline" aria-label={`${s.name} report as CSV`}>CSV</a>
+                </li>
+              ))}
+            </ul>
+          </section>
+        ) : null}
       </div>
     </>
   );
