@@ -14,6 +14,7 @@ import { customer, digest, loop, machine, member, organisation, site, user } fro
 import routes from "~/routes";
 import { createDeviceIdentity, DeviceClient, sampleDigest } from "../../scripts/simulator/device-client";
 import { createInvitation } from "../factories";
+import { ensureHealthDemo } from "./health-support";
 import { closeDb, db } from "../support/db";
 import { APP_URL, postJson, signIn } from "../support/http";
 import { signInAs } from "./support";
@@ -50,7 +51,7 @@ function pagePatterns(): string[] {
 }
 
 /** What the seeded demo database gives the placeholders: see demoData below. */
-type DemoData = { machineId: string; invitationId: string };
+type DemoData = { machineId: string; invitationId: string; findingId: string; loopId: string; siteId: string };
 
 /** Where each URL parameter's value comes from, keyed by the segment before it. */
 const PARAMETERS: Record<string, (demo: DemoData) => string> = {
@@ -58,6 +59,10 @@ const PARAMETERS: Record<string, (demo: DemoData) => string> = {
   // A Halden Plastics machine: every role, the site manager included, may see it.
   "machines/:id": (demo) => demo.machineId,
   "invitations/:id": (demo) => demo.invitationId,
+  // A Halden Plastics machine's saturation finding, loop and site (tests/e2e/health-support.ts).
+  "findings/:id": (demo) => demo.findingId,
+  "loop/:id": (demo) => demo.loopId,
+  "site/:id": (demo) => demo.siteId,
 };
 
 function fillParameters(pattern: string, demo: DemoData): string {
@@ -206,7 +211,10 @@ async function demoData(): Promise<DemoData> {
     .where(and(eq(member.organizationId, target.organisationId), eq(member.role, "owner")))
     .limit(1);
   const invitation = await createInvitation(db(), { organisationId: target.organisationId, inviterId: owner!.userId, email: `new-colleague-${Date.now()}@a11y.example`, role: "engineer" });
-  return { machineId: target.id, invitationId: invitation.id };
+  const health = await ensureHealthDemo();
+  const [first] = await db().select({ id: loop.id }).from(loop).where(eq(loop.machineId, target.id)).orderBy(asc(loop.key)).limit(1);
+  const [place] = await db().select({ siteId: machine.siteId }).from(machine).where(eq(machine.id, target.id));
+  return { machineId: target.id, invitationId: invitation.id, findingId: health.chartFindingId, loopId: first!.id, siteId: place!.siteId };
 }
 
 /** Enrol a device for the machine and post 24 five-minute windows per loop; the second loop saturates now and then. */

@@ -78,11 +78,11 @@ export function FindingChart({
       ) : (
         <SizedBox height={height}>
           {(width) => (
-            <XYChart width={width} height={height} accessibilityLabel={`${title} (${unit}) over time`} margin={{ top: 10, right: 12, bottom: 30, left: 52 }} xScale={{ type: "time" }} yScale={{ type: "linear", domain: [min, max], nice: true }}>
+            <XYChart width={width} height={height} accessibilityLabel={`${title} (${unit}) over time`} margin={{ top: 10, right: 12, bottom: 42, left: 60 }} xScale={{ type: "time" }} yScale={{ type: "linear", domain: [min, max], nice: true }}>
               <Grid columns={false} numTicks={4} lineStyle={{ stroke: "var(--color-rule)", strokeWidth: 1 }} />
               {window ? <WindowShade start={window.start} end={window.end} /> : null}
-              <Axis orientation="bottom" numTicks={Math.max(2, Math.min(5, Math.floor(width / 90)))} label="Time (UTC)" labelProps={{ fontSize: 10, fill: "var(--color-ink-faint)", textAnchor: "middle" }} tickFormat={(d: Date) => tick.format(d)} tickLabelProps={() => ({ fontSize: 10, fill: "var(--color-ink-faint)", textAnchor: "middle" })} stroke="var(--color-rule-strong)" tickStroke="var(--color-rule-strong)" />
-              <Axis orientation="left" numTicks={4} label={unit} labelProps={{ fontSize: 10, fill: "var(--color-ink-faint)" }} tickFormat={(v: number) => format(v)} tickLabelProps={() => ({ fontSize: 10, fill: "var(--color-ink-faint)", textAnchor: "end", dx: -2, dy: 3 })} stroke="var(--color-rule-strong)" tickStroke="var(--color-rule-strong)" />
+              <Axis orientation="bottom" numTicks={Math.max(2, Math.min(5, Math.floor(width / 90)))} label="Time (UTC)" labelOffset={14} labelProps={{ fontSize: 10, fill: "var(--color-ink-faint)", textAnchor: "middle" }} tickFormat={(d: Date) => tick.format(d)} tickLabelProps={() => ({ fontSize: 10, fill: "var(--color-ink-faint)", textAnchor: "middle" })} stroke="var(--color-rule-strong)" tickStroke="var(--color-rule-strong)" />
+              <Axis orientation="left" numTicks={4} label={unit} labelOffset={34} labelProps={{ fontSize: 10, fill: "var(--color-ink-faint)" }} tickFormat={(v: number) => format(v)} tickLabelProps={() => ({ fontSize: 10, fill: "var(--color-ink-faint)", textAnchor: "end", dx: -2, dy: 3 })} stroke="var(--color-rule-strong)" tickStroke="var(--color-rule-strong)" />
               {thresholdLine.length ? <LineSeries dataKey="threshold" data={thresholdLine} {...accessors} stroke="var(--color-act)" strokeDasharray="4 4" strokeWidth={1} /> : null}
               <LineSeries dataKey={title} data={points} {...accessors} stroke="var(--color-accent)" strokeWidth={1.5} />
               <Tooltip<SeriesPoint>

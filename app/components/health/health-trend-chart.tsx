@@ -9,8 +9,8 @@ import type { Overview } from "~/lib/health/api-types";
 
 type Day = Overview["trend"][number];
 
-/** Bottom to top: steady at the base, act on top where the eye lands. */
-const STACK: HealthBand[] = ["steady", "watch", "act", "silent"];
+/** Bottom to top: act on the baseline, so its count reads straight off the axis, steady on top. */
+const STACK: HealthBand[] = ["act", "watch", "silent", "steady"];
 const WORDS: Record<HealthBand, string> = { steady: "Steady", watch: "Watch", act: "Act", silent: "Silent" };
 const ICONS: Record<HealthBand, string> = { steady: "●", watch: "▲", act: "■", silent: "○" };
 const FILL: Record<HealthBand, string> = {
@@ -33,7 +33,6 @@ export function HealthTrendChart({ trend, height = 220 }: { trend: Day[]; height
         <ul className="flex flex-wrap gap-3 text-ink-soft" aria-label="Legend">
           {STACK.slice().reverse().map((band) => (
             <li key={band} className="flex items-center gap-1">
-              <span aria-hidden="true" className="inline-block h-2.5 w-2.5 rounded-sm" style={{ background: FILL[band] }} />
               <span aria-hidden="true" style={{ color: FILL[band] }}>{ICONS[band]}</span>
               {WORDS[band]}
             </li>
@@ -54,7 +53,7 @@ export function HealthTrendChart({ trend, height = 220 }: { trend: Day[]; height
                 width={width}
                 height={height}
                 accessibilityLabel={`${title}, ${trend.length} days`}
-                margin={{ top: 10, right: 8, bottom: 30, left: 44 }}
+                margin={{ top: 10, right: 8, bottom: 42, left: 56 }}
                 xScale={{ type: "band", paddingInner: 0.25 }}
                 yScale={{ type: "linear", nice: true }}
               >
@@ -68,6 +67,7 @@ export function HealthTrendChart({ trend, height = 220 }: { trend: Day[]; height
                   orientation="bottom"
                   tickValues={ticks}
                   label="Day (UTC)"
+                  labelOffset={14}
                   labelProps={{ fontSize: 10, fill: "var(--color-ink-faint)", textAnchor: "middle" }}
                   tickLabelProps={() => ({ fontSize: 10, fill: "var(--color-ink-faint)", textAnchor: "middle" })}
                   stroke="var(--color-rule-strong)"
@@ -77,6 +77,7 @@ export function HealthTrendChart({ trend, height = 220 }: { trend: Day[]; height
                   orientation="left"
                   numTicks={4}
                   label="loops"
+                  labelOffset={30}
                   labelProps={{ fontSize: 10, fill: "var(--color-ink-faint)" }}
                   tickFormat={(v: number) => String(v)}
                   tickLabelProps={() => ({ fontSize: 10, fill: "var(--color-ink-faint)", textAnchor: "end", dx: -2, dy: 3 })}

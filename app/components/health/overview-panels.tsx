@@ -85,7 +85,7 @@ export function OverviewPanels({ overview, base, search }: { overview: Overview;
           {openTotal === 0 ? (
             <p className="mt-2 text-sm text-ink-soft">No open findings. Findings appear when a loop drifts, winds up, saturates, oscillates or goes silent.</p>
           ) : (
-            <div className="mt-2 grid gap-4 sm:grid-cols-2">
+            <div className="mt-2 grid items-start gap-4 sm:grid-cols-2">
               <table className="w-full text-sm">
                 <caption className="text-left text-xs text-ink-faint">By severity</caption>
                 <tbody className="divide-y divide-rule">

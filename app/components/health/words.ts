@@ -99,18 +99,62 @@ export const KIND_GUIDES: Record<FindingKind, KindGuide> = {
   },
 };
 
-/** Evidence metric names in words. */
+/** Evidence and series metric names in words. */
 export const METRIC_LABELS: Record<string, string> = {
-  "saturation.share24h": "Share of time at the output limit (24 h)",
-  "saturation.share7d": "Share of time at the output limit (7 days)",
-  "windup.share24h": "Share of time with the integrator held (24 h)",
-  "windup.pinnedShare24h": "Share of time with the integrator held while saturated (24 h)",
+  "saturation.share24h": "Time at the output limit, last 24 h",
+  "saturation.share": "Time at the output limit, per hour",
+  "windup.share24h": "Integrator held, last 24 h",
+  "windup.share": "Integrator held, per hour",
   "oscillation.detectionsPerHour": "Load-disturbance detections per hour",
   "drift.cusumHigh": "Drift sum, upward",
   "drift.cusumLow": "Drift sum, downward",
-  "silent.minutesSinceDigest": "Minutes since the last digest",
+  "iae.perSecond": "Control error (IAE) per second",
+  "silence.secondsSinceDigest": "Time since the last digest",
+  "digests.perHour": "Digests received per hour",
 };
 
 export function metricLabel(metric: string): string {
   return METRIC_LABELS[metric] ?? metric;
+}
+
+type FigureSpec = { label: string; format: (v: number) => string };
+const share = (v: number) => `${Math.round(v * 100)} %`;
+const sig = (digits: number, unit = "") => (v: number) => `${Number(v.toPrecision(digits))}${unit ? ` ${unit}` : ""}`;
+
+/** Evidence figures by key: a label in words and the product's number style. */
+const FIGURES: Record<string, FigureSpec> = {
+  share24h: { label: "Share of the last 24 h", format: share },
+  share7d: { label: "Share of the last 7 days", format: share },
+  slopePerDay: { label: "Trend", format: (v) => `${v > 0 ? "+" : ""}${Number((v * 100).toPrecision(2))} points a day` },
+  pinnedShare24h: { label: "Held while the output was saturated, 24 h", format: share },
+  detectionsPerHour: { label: "Detections per hour", format: sig(3, "per hour") },
+  limitPerHour: { label: "Limit", format: sig(3, "per hour") },
+  supervisionSeconds: { label: "Supervision time (50·Tu)", format: (v) => formatSeconds(v) },
+  baselineMean: { label: "Baseline IAE per second", format: sig(3) },
+  baselineStd: { label: "Baseline standard deviation", format: sig(3) },
+  cusumHigh: { label: "Drift sum, upward", format: sig(3, "std devs") },
+  cusumLow: { label: "Drift sum, downward", format: sig(3, "std devs") },
+  sinceGainVersion: { label: "Baseline since gain version", format: (v) => String(v) },
+  expectedIntervalS: { label: "Expected digest interval", format: (v) => formatSeconds(v) },
+};
+const DATE_FIGURES: Record<string, string> = { projectedActAt: "Reaches the act limit about", lastDigestAt: "Last digest" };
+
+export function figureLabel(key: string): string {
+  return FIGURES[key]?.label ?? DATE_FIGURES[key] ?? key;
+}
+
+export function formatFigure(key: string, value: number | string | null): string {
+  if (value === null || value === undefined) return "–";
+  if (typeof value === "number") return FIGURES[key] ? FIGURES[key].format(value) : String(Number(value.toPrecision(4)));
+  if (DATE_FIGURES[key] && !Number.isNaN(Date.parse(value))) return `${new Intl.DateTimeFormat("en-GB", { day: "numeric", month: "short", year: "numeric", hour: "2-digit", minute: "2-digit", timeZone: "UTC" }).format(new Date(value))} UTC`;
+  return value;
+}
+
+/** A duration in the largest sensible unit: 45 s, 12 min, 3.5 h, 2.1 days. */
+export function formatSeconds(s: number): string {
+  if (!Number.isFinite(s)) return "–";
+  if (s < 120) return `${Number(s.toPrecision(3))} s`;
+  if (s < 7200) return `${Number((s / 60).toPrecision(3))} min`;
+  if (s < 172_800) return `${Number((s / 3600).toPrecision(3))} h`;
+  return `${Number((s / 86_400).toPrecision(3))} days`;
 }

@@ -7,13 +7,15 @@ import { getSiteScope } from "~/.server/fleet/scope";
 import { acknowledgeFinding, getFinding, getFindingSeries, resolveFinding } from "~/.server/health/findings";
 import { actionFailure } from "~/.server/http/errors";
 import { formatDateTime, formatSig } from "~/components/fleet/format";
+import { formatSeconds } from "~/components/health/words";
 import { FindingChart } from "~/components/health/finding-chart";
 import { SeverityBadge } from "~/components/health/overview-panels";
-import { KIND_GUIDES, KIND_LABELS, metricLabel, STATE_LABELS } from "~/components/health/words";
+import { figureLabel, formatFigure, KIND_GUIDES, KIND_LABELS, metricLabel, STATE_LABELS } from "~/components/health/words";
 import { PageHeader } from "~/components/org-shell";
 import { Button } from "~/components/ui/button";
 import { Notice } from "~/components/ui/notice";
 import { can } from "~/lib/access/capabilities";
+import { DomainError } from "~/lib/errors";
 import { AcknowledgeSchema, ResolveSchema } from "~/lib/health/api-types";
 import type { Route } from "./+types/finding";
 
@@ -21,10 +23,14 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const membership = await requireCapableMember(request, params.slug, "fleet:read");
   const db = getDb();
   const scope = await getSiteScope(db, membership);
-  const finding = await getFinding(db, scope, params.id);
-  if (!finding) throw data({ message: "No such finding." }, { status: 404 });
-  const series = await getFindingSeries(db, scope, params.id);
-  return { finding, series, slug: membership.organisation.slug, canTriage: can(membership.role, "findings:triage") };
+  try {
+    const [finding, series] = await Promise.all([getFinding(db, scope, params.id), getFindingSeries(db, scope, params.id)]);
+    return { finding, series, slug: membership.organisation.slug, canTriage: can(membership.role, "findings:triage") };
+  } catch (error) {
+    // Another organisation's, another site's or a malformed id: the same "not found".
+    if (error instanceof DomainError && error.status === 404) throw data({ message: "No such finding." }, { status: 404 });
+    throw error;
+  }
 }
 
 type ActionResult = { ok: boolean; message: string; field?: string };
@@ -54,11 +60,11 @@ export async function action({ request, params }: Route.ActionArgs) {
   }
 }
 
-function figure(value: number | string | null, unit = ""): string {
+function figure(value: number | null, unit: string): string {
   if (value === null) return "–";
-  if (typeof value === "string") return value;
-  if (unit === "fraction" || unit === "share") return `${Math.round(value * 100)} %`;
-  return `${formatSig(value, 3)}${unit ? ` ${unit}` : ""}`;
+  if (unit === "share") return `${Math.round(value * 100)} %`;
+  if (unit === "s") return formatSeconds(value);
+  return `${formatSig(value, 3)} ${unit}`;
 }
 
 export default function FindingPage({ loaderData, actionData }: Route.ComponentProps) {
@@ -67,11 +73,11 @@ export default function FindingPage({ loaderData, actionData }: Route.ComponentP
   const busy = useNavigation().state === "submitting";
   const guide = KIND_GUIDES[finding.kind];
   const ev = finding.evidence;
-  const share = ev.unit === "fraction" || ev.unit === "share";
+  const share = series.unit === "share";
   const scale = share ? 100 : 1;
-  const unit = share ? "%" : ev.unit;
-  const points = series.points.map((p) => ({ t: new Date(p.at).getTime(), v: p.value * scale }));
-  const window = ev.windowStart && ev.windowEnd ? { start: new Date(ev.windowStart).getTime(), end: new Date(ev.windowEnd).getTime() } : null;
+  const unit = share ? "% of the hour" : series.unit;
+  const points = series.points.flatMap((p) => (p.value === null ? [] : [{ t: new Date(p.hour).getTime(), v: p.value * scale }]));
+  const window = series.windowStart && series.windowEnd ? { start: new Date(series.windowStart).getTime(), end: new Date(series.windowEnd).getTime() } : null;
   const title = `${KIND_LABELS[finding.kind]} on ${finding.machineSerial}`;
   return (
     <>
@@ -100,10 +106,10 @@ export default function FindingPage({ loaderData, actionData }: Route.ComponentP
           <h2 id="chart-heading" className="font-semibold">The metric over time</h2>
           <div className="mt-2">
             <FindingChart
-              title={metricLabel(series.metric ?? ev.metric)}
+              title={metricLabel(series.metric)}
               unit={unit}
               points={points}
-              threshold={ev.threshold === null ? null : ev.threshold * scale}
+              threshold={series.threshold === null ? null : series.threshold * scale}
               window={window}
               format={share ? (v) => Math.round(v).toString() : undefined}
             />
@@ -127,8 +133,8 @@ export default function FindingPage({ loaderData, actionData }: Route.ComponentP
             <dl className="mt-2 divide-y divide-rule text-sm">
               {Object.entries(ev.figures).map(([name, value]) => (
                 <div key={name} className="flex justify-between gap-4 py-1">
-                  <dt className="text-ink-soft">{metricLabel(name)}</dt>
-                  <dd className="tabular">{typeof value === "number" ? formatSig(value, 4) : value ?? "–"}</dd>
+                  <dt className="text-ink-soft">{figureLabel(name)}</dt>
+                  <dd className="tabular">{formatFigure(name, value)}</dd>
                 </div>
               ))}
             </dl>

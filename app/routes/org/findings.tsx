@@ -42,8 +42,7 @@ export async function action({ request, params }: Route.ActionArgs) {
   if (!parsed.success) return data<ActionResult>({ ok: false, message: parsed.error.issues[0]?.message ?? "Check the selection." }, { status: 400 });
   const db = getDb();
   try {
-    const done = await acknowledgeFindings(db, await getSiteScope(db, membership), membership.user.id, parsed.data.ids, parsed.data.comment);
-    const count = Array.isArray(done) ? done.length : parsed.data.ids.length;
+    const { acknowledged: count } = await acknowledgeFindings(db, await getSiteScope(db, membership), membership.user.id, parsed.data.ids, parsed.data.comment);
     return data<ActionResult>({ ok: true, message: `${count} ${count === 1 ? "finding" : "findings"} acknowledged.` });
   } catch (error) {
     return actionFailure<ActionResult>(error);

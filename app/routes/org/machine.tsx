@@ -7,7 +7,7 @@ import { actionFailure } from "~/.server/http/errors";
 import { decommissionMachine, getMachine, regenerateEnrolmentCode, revokeMachineDevice } from "~/.server/fleet/machines";
 import { getSiteScope } from "~/.server/fleet/scope";
 import { listFindings } from "~/.server/health/findings";
-import { getLoopHealth } from "~/.server/health/loop-health";
+import { getLoopHealth } from "~/.server/health/overview";
 import { createRetuneRequest } from "~/.server/health/retune";
 import { formatAgo, formatDateTime, formatSig } from "~/components/fleet/format";
 import { HealthBadge } from "~/components/fleet/health-badge";
