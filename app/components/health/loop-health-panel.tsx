@@ -38,7 +38,7 @@ export function LoopHealthPanel({ health, loopName, reportHref }: { health: Loop
         <span className="flex items-center gap-2 text-xs text-ink-faint">
           {reportHref ? <a href={reportHref} className="text-accent hover:underline">Health report</a> : null}
           <span>last digest {formatAgo(health.lastDigestAt)}</span>
-          <HealthBadge band={health.band} score={health.score} />
+          <HealthBadge band={health.band} score={health.band === "silent" ? null : health.score} />
         </span>
       </div>
       {health.reasons.length ? (

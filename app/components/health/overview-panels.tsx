@@ -46,7 +46,7 @@ export function OverviewPanels({ overview, base, search }: { overview: Overview;
             {needing.map((m) => (
               <li key={m.machineId}>
                 <Link to={`${base}/machines/${m.machineId}`} className="flex flex-wrap items-center gap-x-4 gap-y-1 px-4 py-2.5 text-sm hover:bg-paper">
-                  <HealthBadge band={m.band} score={m.score} />
+                  <HealthBadge band={m.band} score={m.band === "silent" ? null : m.score} />
                   <span className="font-medium">{m.serial}</span>
                   <span className="min-w-0 flex-1 basis-60 text-ink-soft">{m.reason}</span>
                   <span aria-hidden="true" className="text-accent">→</span>

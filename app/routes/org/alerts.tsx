@@ -19,7 +19,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const membership = await requireCapableMember(request, params.slug, "fleet:read");
   const db = getDb();
   const scope = await getSiteScope(db, membership);
-  const [subscription, options] = await Promise.all([getAlertSubscription(db, scope, membership.user.id), listRegistryOptions(db, scope)]);
+  const [subscription, options] = await Promise.all([getAlertSubscription(db, scope, { memberId: membership.memberId, role: membership.role }), listRegistryOptions(db, scope)]);
   return { subscription, sites: options.sites, email: membership.user.email, siteScoped: scope.siteIds !== null };
 }
 
@@ -41,7 +41,7 @@ export async function action({ request, params }: Route.ActionArgs) {
   }
   const db = getDb();
   try {
-    await saveAlertSubscription(db, await getSiteScope(db, membership), membership.user.id, parsed.data);
+    await saveAlertSubscription(db, await getSiteScope(db, membership), { memberId: membership.memberId, role: membership.role }, parsed.data);
     return data<ActionResult>({ ok: true, message: "Saved. New findings that match are e-mailed to you." });
   } catch (error) {
     return actionFailure<ActionResult>(error);

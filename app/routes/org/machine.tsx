@@ -64,10 +64,17 @@ export async function action({ request, params }: Route.ActionArgs) {
       return data<ActionResult>({ ok: false, retune: true, message: "The retune request was not sent.", errors }, { status: 400 });
     }
     try {
-      await createRetuneRequest(db, await getSiteScope(db, member), member.user.id, input.data);
-      return data<ActionResult>({ ok: true, retune: true, message: "Retune request sent to the OEM's engineers. Follow its state under Retune requests." });
+      const created = await createRetuneRequest(db, await getSiteScope(db, member), member.user.id, input.data);
+      return data<ActionResult>({
+        ok: true,
+        retune: true,
+        message: created.notified
+          ? "Retune request sent to the OEM's engineers. Follow its state under Retune requests."
+          : "Retune request filed; the e-mail to the engineers did not go out, but they see it in their queue. Follow its state under Retune requests.",
+      });
     } catch (error) {
-      return actionFailure<ActionResult>(error);
+      const failure = actionFailure<ActionResult>(error);
+      return data<ActionResult>({ ...failure.data, retune: true }, failure.init ?? undefined);
     }
   }
   const membership = requireCapability(member, "machines:manage");

@@ -26,7 +26,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const scope = await getSiteScope(db, membership);
   const stateParam = new URL(request.url).searchParams.get("state");
   const state = z.enum(RETUNE_STATES).safeParse(stateParam);
-  const requests = await listRetuneRequests(db, scope, state.success ? { state: state.data } : {});
+  const requests = await listRetuneRequests(db, scope, { state: state.success ? state.data : undefined, page: 1, pageSize: 100 });
   return {
     requests,
     state: state.success ? state.data : null,
@@ -50,12 +50,15 @@ export async function action({ request, params }: Route.ActionArgs) {
     await setRetuneRequestState(db, await getSiteScope(db, membership), membership.user.id, id.data, parsed.data);
     return data<ActionResult>({ ok: true, id: id.data, message: `Moved to "${RETUNE_STATE_LABELS[parsed.data.state]}". The site manager sees your comment.` });
   } catch (error) {
-    return { ...actionFailure<ActionResult>(error), id: id.data } as never;
+    const failure = actionFailure<ActionResult>(error);
+    return data<ActionResult>({ ...failure.data, id: id.data }, failure.init ?? undefined);
   }
 }
 
 function RequestCard({ r, slug, canMove, result, busy }: { r: RetuneRequest; slug: string; canMove: boolean; result: ActionResult | undefined; busy: boolean }) {
   const next = RETUNE_NEXT[r.state];
+  // The first entry is the request itself (its observation); the rest are the engineers' moves.
+  const answers = r.history.filter((h, i) => !(i === 0 && h.state === "open"));
   const mine = result?.id === r.id ? result : undefined;
   return (
     <li className="rounded-xl border border-rule bg-white p-4" aria-labelledby={`req-${r.id}`}>
@@ -68,11 +71,9 @@ function RequestCard({ r, slug, canMove, result, busy }: { r: RetuneRequest; slu
       </div>
       <p className="mt-1 text-xs text-ink-faint">Filed {formatDateTime(r.createdAt)}{r.requestedBy ? ` by ${r.requestedBy}` : ""} · updated {formatAgo(r.updatedAt)}</p>
       <blockquote className="mt-2 border-l-2 border-rule-strong pl-3 text-sm">{r.observation}</blockquote>
-      {r.history.filter((h) => h.comment || h.state !== "open").length ? (
+      {answers.length ? (
         <ol className="mt-3 space-y-1.5 text-sm" aria-label="Answers">
-          {r.history
-            .filter((h) => h.comment || h.state !== "open")
-            .map((h, i) => (
+          {answers.map((h, i) => (
               <li key={`${h.at}-${i}`} className="rounded-md bg-paper px-3 py-1.5">
                 <p className="text-xs text-ink-faint">
                   <span className="font-medium text-ink-soft">{RETUNE_STATE_LABELS[h.state]}</span> · {formatDateTime(h.at)} · {h.actorName ?? "Flyball"}

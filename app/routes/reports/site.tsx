@@ -1,23 +1,20 @@
-// A site's health report, printable (no navigation; outside the organisation layout).
+// A site's health report, printable (outside the organisation layout: no navigation).
 import { data } from "react-router";
-import { loadHealthReport } from "./report.server";
 import { HealthReport } from "~/components/health/health-report";
+import { loadHealthReport } from "./report.server";
 import type { Route } from "./+types/site";
 
 export async function loader({ request, params }: Route.LoaderArgs) {
-  const report = await loadHealthReport(request, params.slug, { siteId: params.id });
-  if (!report) throw data({ message: "No such site." }, { status: 404 });
-  return report;
+  const loaded = await loadHealthReport(request, params.slug, { siteId: params.id });
+  if (!loaded) throw data({ message: "No such site." }, { status: 404 });
+  return loaded;
 }
 
-export default function SiteReport({ loaderData: r, params }: Route.ComponentProps) {
+export default function SiteReport({ loaderData: { report, organisation }, params }: Route.ComponentProps) {
   return (
     <HealthReport
-      title={`Health report: ${r.siteName ?? "site"}`}
-      subtitle={`${r.customerName ?? ""} · every loop of every machine in service at this site, worst first`}
-      organisation={r.organisation}
-      generatedAt={r.generatedAt}
-      rows={r.rows}
+      report={report}
+      organisation={organisation}
       csvHref={`/o/${params.slug}/reports/site/${params.id}/csv`}
       backHref={`/o/${params.slug}?siteId=${params.id}`}
       backLabel="Back to the overview"
@@ -25,5 +22,5 @@ export default function SiteReport({ loaderData: r, params }: Route.ComponentPro
   );
 }
 
-export const meta: Route.MetaFunction = ({ data: d }) => [{ title: `${d?.siteName ?? "Site"} health report · Flyball` }];
+export const meta: Route.MetaFunction = ({ data: d }) => [{ title: `${d?.report.title ?? "Health report"} · Flyball` }];
 export { ErrorBoundary } from "~/components/route-error";
