@@ -26,6 +26,7 @@ export default [
     route("findings/:id", "routes/org/finding.tsx"),
     route("retune-requests", "routes/org/retune-requests.tsx"),
     route("alerts", "routes/org/alerts.tsx"),
+    route("billing", "routes/org/billing.tsx"),
   ]),
   // Health reports: printable pages without the navigation, and their CSV.
   route("o/:slug/reports/loop/:id", "routes/reports/loop.tsx"),
@@ -49,6 +50,9 @@ export default [
     route("v1/o/:slug/machines/:id", "routes/api/o/machine.ts"),
     route("v1/o/:slug/machines/:id/:command", "routes/api/o/machine-command.ts"),
     route("v1/o/:slug/loops/:id/digests", "routes/api/o/loop-digests.ts"),
+    route("v1/o/:slug/billing", "routes/api/o/billing.ts"),
+    route("v1/o/:slug/billing/:session", "routes/api/o/billing-session.ts"),
+    route("webhooks/stripe", "routes/api/webhooks/stripe.ts"),
     ...prefix("v1/compute", [
       route("margins", "routes/api/compute/margins.ts"),
       route("tune", "routes/api/compute/tune.ts"),

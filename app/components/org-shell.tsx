@@ -19,6 +19,7 @@ export const NAV_ITEMS: NavItem[] = [
   { to: "alerts", label: "Alert e-mails", capability: "fleet:read" },
   { to: "team", label: "Team", capability: "team:read" },
   { to: "developer", label: "Developer", capability: "registry:manage" },
+  { to: "billing", label: "Billing", capability: "billing:manage" },
 ];
 
 export function OrgShell({
