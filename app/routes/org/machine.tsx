@@ -32,16 +32,14 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   if (!machine) throw data({ message: "No such machine." }, { status: 404 });
   // The page opens on the machine's worst loop unless `?loop=` names another of its loops.
   const selected = pickLoop(machine.loops, new URL(request.url).searchParams.get("loop"));
-  const [loopHealth, findings] = await Promise.all([
-    selected ? getLoopHealth(db, scope, selected.id) : null,
-    listFindings(db, scope, FindingsQuerySchema.parse({ machineId: machine.id, sort: "severity", dir: "desc", pageSize: 100 })),
-  ]);
+  const unresolved = (state: "open" | "acknowledged") => listFindings(db, scope, FindingsQuerySchema.parse({ machineId: machine.id, state, sort: "severity", dir: "desc", pageSize: 100 }));
+  const [loopHealth, open, acknowledged] = await Promise.all([selected ? getLoopHealth(db, scope, selected.id) : null, unresolved("open"), unresolved("acknowledged")]);
   return {
     machine,
     slug: membership.organisation.slug,
     selectedLoopId: selected?.id ?? null,
     loopHealth,
-    findings: findings.items.filter((f) => f.state !== "resolved"),
+    findings: [...open.items, ...acknowledged.items],
     canManage: can(membership.role, "machines:manage"),
     canRequestRetune: can(membership.role, "retune:request"),
   };
