@@ -73,7 +73,13 @@ export default function OverviewPage({ loaderData }: Route.ComponentProps) {
           <button className={buttonClass("secondary", "py-1.5")}>Apply</button>
           {filtered ? <Link to="?" className="px-2 py-1.5 text-sm text-accent hover:underline">Clear filters</Link> : null}
           <p className="ml-auto text-xs text-ink-faint" aria-live="polite">
-            {navigating ? "Loading…" : live.isError ? (live.error as Error).message : live.isFetching ? "Refreshing…" : `Refreshed ${new Date(live.dataUpdatedAt).toLocaleTimeString("en-GB", { timeZone: "UTC" })} UTC, every 30 s`}
+            {navigating
+              ? "Loading…"
+              : live.isError
+                ? (live.error as Error).message
+                : live.isFetchedAfterMount
+                  ? `Refreshed ${new Date(live.dataUpdatedAt).toLocaleTimeString("en-GB", { timeZone: "UTC" })} UTC; again every 30 s`
+                  : "Refreshes every 30 s"}
           </p>
         </Form>
 
