@@ -125,7 +125,7 @@ test("a site manager asks for a retune; an engineer takes it on with a comment t
 
   const engineer = await browser.newPage();
   await signInAs(engineer, "engineer@corvid.example");
-  await engineer.goto("/o/corvid/retune-requests?state=open");
+  await engineer.goto("/o/corvid/retune-requests");
   const card = engineer.locator("li").filter({ hasText: observation });
   await card.getByLabel("Move to").selectOption("in_progress");
   const comment = "Looking at zone 2 this week: we will compare its heater output with the other zones first.";
