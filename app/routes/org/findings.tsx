@@ -5,6 +5,7 @@ import { data, Form, Link, useNavigation, useSearchParams } from "react-router";
 import { z } from "zod";
 import { requireCapability, requireCapableMember } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
+import { listMachines } from "~/.server/fleet/machines";
 import { listRegistryOptions } from "~/.server/fleet/registry";
 import { getSiteScope } from "~/.server/fleet/scope";
 import { acknowledgeFindings, listFindings } from "~/.server/health/findings";
@@ -16,6 +17,7 @@ import { PageHeader } from "~/components/org-shell";
 import { buttonClass } from "~/components/ui/button";
 import { Notice } from "~/components/ui/notice";
 import { can } from "~/lib/access/capabilities";
+import { MachineListQuerySchema } from "~/lib/fleet/schemas";
 import { AcknowledgeSchema, FINDING_KINDS, FINDING_SEVERITIES, FINDING_STATES, FindingsQuerySchema } from "~/lib/health/api-types";
 import type { Route } from "./+types/findings";
 
@@ -25,8 +27,10 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const scope = await getSiteScope(db, membership);
   const parsed = FindingsQuerySchema.safeParse(Object.fromEntries(new URL(request.url).searchParams));
   const query = parsed.success ? parsed.data : FindingsQuerySchema.parse({});
-  const [findings, options] = await Promise.all([listFindings(db, scope, query), listRegistryOptions(db, scope)]);
-  return { findings, options, query, invalidQuery: !parsed.success, canTriage: can(membership.role, "findings:triage"), slug: membership.organisation.slug };
+  // The machine filter offers the machines of the chosen customer or site (at most 200, by serial).
+  const machineQuery = MachineListQuerySchema.parse({ customerId: query.customerId, siteId: query.siteId, sort: "serial", pageSize: 200 });
+  const [findings, options, machines] = await Promise.all([listFindings(db, scope, query), listRegistryOptions(db, scope), listMachines(db, scope, machineQuery)]);
+  return { findings, options, machines: machines.items.map((m) => ({ id: m.id, serial: m.serial })), query, invalidQuery: !parsed.success, canTriage: can(membership.role, "findings:triage"), slug: membership.organisation.slug };
 }
 
 const BulkSchema = AcknowledgeSchema.extend({ ids: z.array(z.string().uuid()).min(1, "Select at least one finding.").max(200) });
@@ -50,7 +54,7 @@ export async function action({ request, params }: Route.ActionArgs) {
 }
 
 export default function FindingsPage({ loaderData, actionData }: Route.ComponentProps) {
-  const { findings, options, query, invalidQuery, canTriage, slug } = loaderData;
+  const { findings, options, machines, query, invalidQuery, canTriage, slug } = loaderData;
   const [params] = useSearchParams();
   const busy = useNavigation().state === "loading";
   const pages = Math.max(1, Math.ceil(findings.total / findings.pageSize));
@@ -61,10 +65,8 @@ export default function FindingsPage({ loaderData, actionData }: Route.Component
   };
   const filtered = Boolean(query.state || query.kind || query.severity || query.customerId || query.siteId || query.machineId || query.loopId);
   const sites = query.customerId ? options.sites.filter((s) => s.customerId === query.customerId) : options.sites;
-  const machineSerial = query.machineId ? findings.items.find((f) => f.machineId === query.machineId)?.machineSerial : undefined;
-  const withoutMachine = () => {
+  const withoutLoop = () => {
     const copy = new URLSearchParams(params);
-    copy.delete("machineId");
     copy.delete("loopId");
     copy.delete("page");
     return `?${copy}`;
@@ -78,13 +80,13 @@ export default function FindingsPage({ loaderData, actionData }: Route.Component
         <Form method="get" className="flex flex-wrap items-end gap-2" aria-label="Filter findings">
           <input type="hidden" name="sort" value={query.sort} />
           <input type="hidden" name="dir" value={query.dir} />
-          {query.machineId ? <input type="hidden" name="machineId" value={query.machineId} /> : null}
           {query.loopId ? <input type="hidden" name="loopId" value={query.loopId} /> : null}
           <FilterSelect label="State" name="state" value={query.state} anyLabel="Any state" options={FINDING_STATES.map((s) => ({ value: s, label: STATE_LABELS[s] }))} />
           <FilterSelect label="Kind" name="kind" value={query.kind} anyLabel="Any kind" options={FINDING_KINDS.map((k) => ({ value: k, label: KIND_LABELS[k] }))} />
           <FilterSelect label="Severity" name="severity" value={query.severity} anyLabel="Any severity" options={FINDING_SEVERITIES.map((s) => ({ value: s, label: SEVERITY_LABELS[s] }))} />
           <FilterSelect label="Customer" name="customerId" value={query.customerId} anyLabel="All customers" options={options.customers.map((c) => ({ value: c.id, label: c.name }))} />
           <FilterSelect label="Site" name="siteId" value={query.siteId} anyLabel="All sites" options={sites.map((s) => ({ value: s.id, label: `${s.name} (${s.customerName})` }))} />
+          <FilterSelect label="Machine" name="machineId" value={query.machineId} anyLabel="All machines" options={machines.map((m) => ({ value: m.id, label: m.serial }))} />
           <label className="flex flex-col text-xs text-ink-faint">
             Per page
             <select name="pageSize" defaultValue={String(query.pageSize)} className={selectClass}>
@@ -94,10 +96,10 @@ export default function FindingsPage({ loaderData, actionData }: Route.Component
           <button className={buttonClass("secondary", "py-1.5")}>Apply</button>
           {filtered ? <Link to="?" className="px-2 py-1.5 text-sm text-accent hover:underline">Clear filters</Link> : null}
         </Form>
-        {query.machineId ? (
+        {query.loopId ? (
           <p className="text-sm text-ink-soft">
-            Only machine <span className="font-medium text-ink">{machineSerial ?? "selected"}</span>{query.loopId ? ", one loop" : ""}.{" "}
-            <Link to={withoutMachine()} className="link-in-text">Show every machine</Link>
+            Only one loop{findings.items[0] ? <> (<span className="font-mono">{findings.items[0].machineSerial} {findings.items[0].loopKey}</span>)</> : null}.{" "}
+            <Link to={withoutLoop()} className="link-in-text">Show every loop</Link>
           </p>
         ) : null}
 
