@@ -127,7 +127,7 @@ export function FindingsTable({ slug, rows, sort, dir, canTriage }: { slug: stri
             Comment (optional)
             <input name="comment" maxLength={2000} placeholder="e.g. Seen, heater band ordered" className="rounded-md border border-rule-strong bg-white px-2 py-1.5 text-sm text-ink" />
           </label>
-          <Button variant="secondary" className="py-1.5" disabled={busy || selected.length === 0}>Acknowledge selected</Button>
+          <Button variant="secondary" className="py-1.5 disabled:opacity-50" disabled={busy || selected.length === 0}>Acknowledge selected</Button>
         </Form>
       ) : null}
       <div role="region" tabIndex={0} aria-label="Findings" className="max-h-[70vh] overflow-auto rounded-xl border border-rule bg-white">
