@@ -30,9 +30,14 @@ for (const size of [{ name: "desktop", width: 1280, height: 900 }, { name: "phon
     await expect(trend.locator("svg rect").first()).toBeVisible();
     await expect(trend.getByText("Loops by health, per day")).toBeVisible();
     // The tooltip names the day and the exact counts.
-    const box = (await trend.locator("svg").first().boundingBox())!;
-    await page.mouse.move(box.x + box.width - 20, box.y + box.height / 2);
-    await expect(page.getByText(/loops/).filter({ hasText: /Steady|Act/ }).first()).toBeVisible();
+    const plot = trend.locator('svg[aria-label^="Loops by health"]');
+    await plot.scrollIntoViewIfNeeded();
+    const box = (await plot.boundingBox())!;
+    await page.mouse.move(box.x + 5, box.y + 5);
+    await page.mouse.move(box.x + box.width - 30, box.y + box.height / 2, { steps: 5 });
+    const tooltip = page.locator(".visx-tooltip");
+    await expect(tooltip).toContainText(/Steady\s*\d+\s*loops/);
+    await expect(tooltip).toContainText(/\d{4}/); // the date, with its year
     await expectNoHorizontalOverflow(page);
     await page.screenshot({ path: `data/screenshots/health-overview-${size.name}.png`, fullPage: true });
   });
