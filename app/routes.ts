@@ -27,8 +27,17 @@ export default [
     route("gain-sets/compare", "routes/org/gain-sets-compare.tsx"),
     route("gain-sets/:id", "routes/org/gain-set.tsx"),
     route("audit", "routes/org/audit.tsx"),
+    route("findings", "routes/org/findings.tsx"),
+    route("findings/:id", "routes/org/finding.tsx"),
+    route("retune-requests", "routes/org/retune-requests.tsx"),
+    route("alerts", "routes/org/alerts.tsx"),
     route("billing", "routes/org/billing.tsx"),
   ]),
+  // Health reports: printable pages without the navigation, and their CSV.
+  route("o/:slug/reports/loop/:id", "routes/reports/loop.tsx"),
+  route("o/:slug/reports/loop/:id/csv", "routes/reports/loop-csv.ts"),
+  route("o/:slug/reports/site/:id", "routes/reports/site.tsx"),
+  route("o/:slug/reports/site/:id/csv", "routes/reports/site-csv.ts"),
 
   ...prefix("api", [
     route("auth/*", "routes/api/auth.ts"),

@@ -11,10 +11,13 @@ type NavItem = { to: string; label: string; capability: Capability; end?: boolea
 export const NAV_ITEMS: NavItem[] = [
   { to: "", label: "Overview", capability: "fleet:read", end: true },
   { to: "machines", label: "Machines", capability: "fleet:read" },
+  { to: "findings", label: "Findings", capability: "fleet:read" },
+  { to: "retune-requests", label: "Retune requests", capability: "fleet:read" },
   { to: "customers", label: "Customers & sites", capability: "registry:manage" },
   { to: "models", label: "Models & loops", capability: "registry:manage" },
   { to: "bench", label: "Tuning bench", capability: "tuning:use" },
   { to: "gain-sets", label: "Gain sets", capability: "registry:read" },
+  { to: "alerts", label: "Alert e-mails", capability: "fleet:read" },
   { to: "team", label: "Team", capability: "team:read" },
   { to: "developer", label: "Developer", capability: "registry:manage" },
   { to: "audit", label: "Audit log", capability: "audit:read" },

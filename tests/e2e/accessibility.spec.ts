@@ -14,6 +14,7 @@ import { customer, digest, gainSet, loop, machine, member, organisation, site, u
 import routes from "~/routes";
 import { createDeviceIdentity, DeviceClient, sampleDigest } from "../../scripts/simulator/device-client";
 import { createInvitation } from "../factories";
+import { ensureHealthDemo } from "./health-support";
 import { closeDb, db } from "../support/db";
 import { APP_URL, postJson, signIn } from "../support/http";
 import { signInAs } from "./support";
@@ -50,7 +51,7 @@ function pagePatterns(): string[] {
 }
 
 /** What the seeded demo database gives the placeholders: see demoData below. */
-type DemoData = { machineId: string; invitationId: string; gainSetId: string };
+type DemoData = { machineId: string; invitationId: string; gainSetId: string; findingId: string; loopId: string; siteId: string };
 
 /** Where each URL parameter's value comes from, keyed by the segment before it. */
 const PARAMETERS: Record<string, (demo: DemoData) => string> = {
@@ -59,6 +60,10 @@ const PARAMETERS: Record<string, (demo: DemoData) => string> = {
   "machines/:id": (demo) => demo.machineId,
   "invitations/:id": (demo) => demo.invitationId,
   "gain-sets/:id": (demo) => demo.gainSetId,
+  // A Halden Plastics machine's saturation finding, loop and site (tests/e2e/health-support.ts).
+  "findings/:id": (demo) => demo.findingId,
+  "loop/:id": (demo) => demo.loopId,
+  "site/:id": (demo) => demo.siteId,
 };
 
 function fillParameters(pattern: string, demo: DemoData): string {
@@ -215,7 +220,10 @@ async function demoData(): Promise<DemoData> {
     .orderBy(asc(gainSet.version))
     .limit(1);
   if (!proposed) throw new Error("the demo database has no proposed gain set: run scripts/seed.ts");
-  return { machineId: target.id, invitationId: invitation.id, gainSetId: proposed.id };
+  const health = await ensureHealthDemo();
+  const [first] = await db().select({ id: loop.id }).from(loop).where(eq(loop.machineId, target.id)).orderBy(asc(loop.key)).limit(1);
+  const [place] = await db().select({ siteId: machine.siteId }).from(machine).where(eq(machine.id, target.id));
+  return { machineId: target.id, invitationId: invitation.id, gainSetId: proposed.id, findingId: health.chartFindingId, loopId: first!.id, siteId: place!.siteId };
 }
 
 /** Enrol a device for the machine and post 24 five-minute windows per loop; the second loop saturates now and then. */
