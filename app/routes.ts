@@ -40,6 +40,10 @@ export default [
     route("v1/o/:slug/machines/:id", "routes/api/o/machine.ts"),
     route("v1/o/:slug/machines/:id/:command", "routes/api/o/machine-command.ts"),
     route("v1/o/:slug/loops/:id/digests", "routes/api/o/loop-digests.ts"),
+    route("v1/o/:slug/releases", "routes/api/o/releases.ts"),
+    route("v1/o/:slug/releases/preview", "routes/api/o/release-preview.ts"),
+    route("v1/o/:slug/releases/:id", "routes/api/o/release.ts"),
+    route("v1/o/:slug/releases/:id/:command", "routes/api/o/release-command.ts"),
     ...prefix("v1/compute", [
       route("margins", "routes/api/compute/margins.ts"),
       route("tune", "routes/api/compute/tune.ts"),

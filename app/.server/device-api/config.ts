@@ -75,10 +75,25 @@ export async function acknowledgeConfig(ctx: DeviceContext, input: z.infer<typeo
   if (!row) throw new DomainError("unknown_loop", `This machine has no loop "${input.loop}".`, { status: 404 });
   if (input.version > row.config_version) throw new DomainError("unknown_version", `Version ${input.version} was never issued for loop "${input.loop}".`, { status: 409 });
   const applied = input.status === "applied";
+  // The loop's acknowledgement, the gain set it now runs, and the release target (or its roll
+  // back) that offered this version, in one statement.
   await getPool().query(
-    `update loop set ack_status = $4, ack_reason = $5, acked_at = now(),
-       applied_version = case when $4 = 'applied' then greatest(coalesce(applied_version, 0), $6) else applied_version end
-     where organisation_id = $1 and machine_id = $2 and key = $3`,
+    `with l as (
+       update loop set ack_status = $4, ack_reason = $5, acked_at = now(),
+         applied_version = case when $4 = 'applied' then greatest(coalesce(applied_version, 0), $6) else applied_version end,
+         applied_gain_set_id = case when $4 = 'applied' and $6 = config_version then gain_set_id else applied_gain_set_id end
+       where organisation_id = $1 and machine_id = $2 and key = $3
+       returning organisation_id, id
+     ), offer as (
+       update release_target rt set state = $4, acked_at = now(), reject_reason = $5
+       from l where rt.organisation_id = l.organisation_id and rt.loop_id = l.id and rt.version = $6 and rt.state = 'offered'
+       returning 1
+     ), back as (
+       update release_target rt set rollback_state = $4
+       from l where rt.organisation_id = l.organisation_id and rt.loop_id = l.id and rt.rollback_version = $6 and rt.rollback_state = 'offered'
+       returning 1
+     )
+     select (select count(*) from offer) + (select count(*) from back) as n`,
     [ctx.organisationId, ctx.machineId, input.loop, input.status, input.reason ?? null, input.version],
   );
   await recordAudit(getDb(), {

@@ -4,6 +4,8 @@ import { sql } from "drizzle-orm";
 import { z } from "zod";
 import type { Db } from "~/.server/db/client";
 import { refreshMachineHealth } from "~/.server/fleet/health";
+import { withdrawRetiredSigningKeys } from "~/.server/device-auth/signing-keys";
+import { advanceRelease, listActiveReleases } from "~/.server/releases/releases";
 
 export type JobDefinition<S extends z.ZodType> = {
   name: string;
@@ -48,4 +50,34 @@ export const refreshFleetHealth = defineJob({
   },
 });
 
-export const JOBS = [ensureDigestPartitions, purgeDeviceJtis, refreshFleetHealth] as const;
+/** Signing keys retired by a rotation leave the JWKS once their overlap has passed. */
+export const withdrawSigningKeys = defineJob({
+  name: "device.withdraw-signing-keys",
+  schema: z.object({}).passthrough(),
+  cron: "41 * * * *",
+  handler: async (db) => {
+    await withdrawRetiredSigningKeys(db);
+  },
+});
+
+/**
+ * Releases in their pilot or widening: evaluate the guard (hold at once when it says so),
+ * widen after the guard window, complete when every target answered. Each minute; a release
+ * is locked while it is advanced, so overlapping runs do no harm.
+ */
+export const advanceReleases = defineJob({
+  name: "release.advance",
+  schema: z.object({}).passthrough(),
+  cron: "* * * * *",
+  handler: async (db) => {
+    for (const r of await listActiveReleases(db)) {
+      try {
+        await advanceRelease(db, { organisationId: r.organisationId, releaseId: r.id });
+      } catch (error) {
+        console.error(`[release.advance] ${r.id}:`, (error as Error).message);
+      }
+    }
+  },
+});
+
+export const JOBS = [ensureDigestPartitions, purgeDeviceJtis, refreshFleetHealth, withdrawSigningKeys, advanceReleases] as const;

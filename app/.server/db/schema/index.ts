@@ -7,3 +7,4 @@ export * from "./device";
 export * from "./digests";
 export * from "./api-tokens";
 export * from "./gain-sets";
+export * from "./releases";
