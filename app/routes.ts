@@ -22,6 +22,7 @@ export default [
     route("models", "routes/org/models.tsx"),
     route("developer", "routes/org/developer.tsx"),
     route("bench", "routes/org/bench.tsx"),
+    route("billing", "routes/org/billing.tsx"),
   ]),
 
   ...prefix("api", [
@@ -44,6 +45,9 @@ export default [
     route("v1/o/:slug/releases/preview", "routes/api/o/release-preview.ts"),
     route("v1/o/:slug/releases/:id", "routes/api/o/release.ts"),
     route("v1/o/:slug/releases/:id/:command", "routes/api/o/release-command.ts"),
+    route("v1/o/:slug/billing", "routes/api/o/billing.ts"),
+    route("v1/o/:slug/billing/:session", "routes/api/o/billing-session.ts"),
+    route("webhooks/stripe", "routes/api/webhooks/stripe.ts"),
     ...prefix("v1/compute", [
       route("margins", "routes/api/compute/margins.ts"),
       route("tune", "routes/api/compute/tune.ts"),

@@ -9,7 +9,7 @@ const boss = new PgBoss({ connectionString: env().DATABASE_URL, max: 4 });
 boss.on("error", (error) => console.error("[worker]", error));
 await boss.start();
 for (const job of JOBS) {
-  await boss.createQueue(job.name);
+  await boss.createQueue(job.name, { name: job.name, ...("queue" in job ? job.queue : {}) });
   await boss.work(job.name, async (jobs) => {
     for (const j of jobs) {
       const payload = job.schema.safeParse(j.data ?? {});

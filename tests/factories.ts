@@ -4,7 +4,7 @@ import { hashPassword } from "better-auth/crypto";
 import type { Db } from "~/.server/db/client";
 import { createSigningKey } from "~/.server/device-auth/signing-keys";
 import { account, customer, invitation, loopTemplate, machineModel, member, organisation, site, siteAssignment, user } from "~/.server/db/schema";
-import type { GainEnvelope, HealthThresholds, StoredGains } from "~/.server/db/schema";
+import type { GainEnvelope, HealthThresholds, ReferenceModel, StoredGains } from "~/.server/db/schema";
 import { registerMachine } from "~/.server/fleet/machines";
 import type { Role } from "~/lib/access/capabilities";
 
@@ -81,6 +81,10 @@ export type LoopTemplateSpec = {
   defaultGains: StoredGains;
   gainEnvelope?: GainEnvelope;
   thresholds?: Partial<HealthThresholds>;
+  /** Plant the closed-loop check on proposal uses; minimum margins (defaults GM 2, PM 30°). */
+  referenceModel?: ReferenceModel | null;
+  minGainMargin?: number;
+  minPhaseMarginDeg?: number;
 };
 
 /** Defaults labelled as practice (app/lib/health/REFERENCES.md: no single published threshold). */
@@ -124,6 +128,9 @@ export async function createLoopTemplate(db: Db, { organisationId, modelId, posi
       defaultGains: g,
       gainEnvelope: t.gainEnvelope ?? { kp: [0, Math.max(g.kp * 5, 1)], ki: [0, Math.max(g.ki * 5, 0.1)], kd: [0, Math.max(g.kd * 5, 1)] },
       thresholds: { ...DEFAULT_THRESHOLDS, ...t.thresholds },
+      referenceModel: t.referenceModel ?? null,
+      ...(t.minGainMargin === undefined ? {} : { minGainMargin: t.minGainMargin }),
+      ...(t.minPhaseMarginDeg === undefined ? {} : { minPhaseMarginDeg: t.minPhaseMarginDeg }),
       position,
     })
     .returning();

@@ -18,6 +18,8 @@ export const EnvSchema = z.object({
   TRUSTED_PROXIES: z.string().default(""),
   STRIPE_SECRET_KEY: z.string().default("sk_test_flyball_local"),
   STRIPE_BASE_URL: z.string().url().default("http://127.0.0.1:3026"),
+  /** Verifies Stripe-Signature on POST /api/webhooks/stripe (npm start keeps it in .local/stripe-webhook-secret). */
+  STRIPE_WEBHOOK_SECRET: z.string().min(1).optional(),
 });
 export type Env = z.infer<typeof EnvSchema>;
 

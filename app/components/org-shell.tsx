@@ -16,6 +16,7 @@ export const NAV_ITEMS: NavItem[] = [
   { to: "bench", label: "Tuning bench", capability: "tuning:use" },
   { to: "team", label: "Team", capability: "team:read" },
   { to: "developer", label: "Developer", capability: "registry:manage" },
+  { to: "billing", label: "Billing", capability: "billing:manage" },
 ];
 
 export function OrgShell({

@@ -71,6 +71,7 @@ const zone = (n: number): LoopTemplateSpec => ({
   outputMax: 255,
   defaultGains: { kp: 6.25, ki: 0.039, kd: 0 },
   gainEnvelope: { kp: [0.5, 40], ki: [0, 0.5], kd: [0, 200] },
+  referenceModel: { type: "fopdt", gain: 1.2, timeConstant: 300, deadTime: 20 },
   thresholds: { acceptableAmplitude: 1.5, ultimatePeriod: 160, oscillationPerHour: oscillationLimitPerHour(160), saturationWatch: 0.05, saturationAct: 0.2, clampWatch: 0.05, clampAct: 0.2, errRmsWatch: 1.5 },
 });
 
@@ -93,6 +94,7 @@ export const DEMO_FLEETS: Record<string, DemoFleet> = {
           outputMax: 100,
           defaultGains: { kp: 3.33, ki: 2.08, kd: 0 },
           gainEnvelope: { kp: [0.1, 20], ki: [0, 20], kd: [0, 2] },
+          referenceModel: { type: "fopdt", gain: 1.5, timeConstant: 2, deadTime: 0.2 },
           thresholds: { acceptableAmplitude: 1, ultimatePeriod: 1.6, oscillationPerHour: oscillationLimitPerHour(1.6) },
         },
         {
@@ -104,6 +106,7 @@ export const DEMO_FLEETS: Record<string, DemoFleet> = {
           outputMax: 100,
           defaultGains: { kp: 1.25, ki: 0.3125, kd: 0 },
           gainEnvelope: { kp: [0.05, 10], ki: [0, 5], kd: [0, 5] },
+          referenceModel: { type: "fopdt", gain: 4, timeConstant: 5, deadTime: 0.5 },
           thresholds: { acceptableAmplitude: 3, ultimatePeriod: 4, oscillationPerHour: oscillationLimitPerHour(4) },
         },
       ],
@@ -130,6 +133,7 @@ export const DEMO_FLEETS: Record<string, DemoFleet> = {
           outputMin: 0,
           outputMax: 100,
           defaultGains: { kp: 1.25, ki: 0.83, kd: 0 },
+          referenceModel: { type: "fopdt", gain: 2, timeConstant: 1.5, deadTime: 0.3 },
           // a ≈ 1 % of a 0–150 m³/h range (app/lib/health/REFERENCES.md, Hägglund 1995: a is 1 % of range).
           thresholds: { acceptableAmplitude: 1.5, ultimatePeriod: 1.5, oscillationPerHour: oscillationLimitPerHour(1.5) },
         },
@@ -142,6 +146,7 @@ export const DEMO_FLEETS: Record<string, DemoFleet> = {
           outputMax: 100,
           defaultGains: { kp: 30, ki: 10, kd: 0 },
           gainEnvelope: { kp: [1, 100], ki: [0, 50], kd: [0, 10] },
+          referenceModel: { type: "fopdt", gain: 0.1, timeConstant: 3, deadTime: 0.5 },
           thresholds: { acceptableAmplitude: 0.1, ultimatePeriod: 3, oscillationPerHour: oscillationLimitPerHour(3) },
         },
       ],

@@ -1,7 +1,8 @@
 // GET /api/v1/device/config and POST /api/v1/device/config/ack. The configuration is a JWT
 // signed with the organisation's Ed25519 key: per-loop gains with a monotonic version, and an
-// expiry, so the device can refuse forged, older or stale configurations. Until releases
-// exist, a loop's gains are its template's defaults (set when the machine is registered).
+// expiry, so the device can refuse forged, older or stale configurations. A loop is offered
+// what its last release target set (loop.gain_set_id, a new version each time), or its
+// template's defaults at the version it was registered with when nothing was released.
 import { DomainError } from "~/lib/errors";
 import { createHash } from "node:crypto";
 import { SignJWT } from "jose";
@@ -14,13 +15,34 @@ import type { AuthenticatedDevice, DeviceContext } from "~/.server/device-auth/t
 
 export const CONFIG_LIFETIME_S = 24 * 3600;
 
-type LoopRow = { key: string; config_version: number; gains: { kp: number; ki: number; kd: number }; output_min: number; output_max: number; sample_period_s: number; slug: string };
+type LoopRow = {
+  key: string;
+  config_version: number;
+  gain_set_id: string | null;
+  gains: { kp: number; ki: number; kd: number };
+  filter_n: number;
+  setpoint_weight: number;
+  anti_windup: "clamp" | "back_calculation";
+  tracking_time_s: number | null;
+  integrator_min: number | null;
+  integrator_max: number | null;
+  output_min: number;
+  output_max: number;
+  sample_period_s: number;
+  slug: string;
+};
 
+// Without a gain set the controller's defaults apply: N = 10, b = 1, clamping, the template's range.
 const LOOPS_SQL = `
-select l.key, l.config_version, l.gains, t.output_min, t.output_max, t.sample_period_s, o.slug
+select l.key, l.config_version, l.gain_set_id, l.gains,
+  coalesce(gs.filter_n, 10) as filter_n, coalesce(gs.setpoint_weight, 1) as setpoint_weight,
+  coalesce(gs.anti_windup, 'clamp') as anti_windup, gs.tracking_time_s, gs.integrator_min, gs.integrator_max,
+  coalesce(gs.output_min, t.output_min) as output_min, coalesce(gs.output_max, t.output_max) as output_max,
+  coalesce(gs.sample_period_s, t.sample_period_s) as sample_period_s, o.slug
 from loop l
 join loop_template t on t.organisation_id = l.organisation_id and t.id = l.template_id
 join organisation o on o.id = l.organisation_id
+left join gain_set gs on gs.organisation_id = l.organisation_id and gs.id = l.gain_set_id
 where l.organisation_id = $1 and l.machine_id = $2
 order by l.key`;
 
@@ -46,8 +68,15 @@ export async function getDeviceConfig(ctx: AuthenticatedDevice, ifNoneMatch: str
   const loops = rows.rows.map((r) => ({
     key: r.key,
     version: r.config_version,
+    gainSetId: r.gain_set_id,
     form: "parallel" as const,
     gains: { kp: r.gains.kp, ki: r.gains.ki, kd: r.gains.kd },
+    filterN: r.filter_n,
+    setpointWeight: r.setpoint_weight,
+    antiWindup: r.anti_windup,
+    trackingTime: r.tracking_time_s,
+    integratorMin: r.integrator_min,
+    integratorMax: r.integrator_max,
     outputMin: r.output_min,
     outputMax: r.output_max,
     samplePeriod: r.sample_period_s,

@@ -112,7 +112,7 @@ with request as (
 ), ${TOKEN_CHECK_CTES}
 select s.req, s.device_status, s.machine_status, p.req is not null as fresh,
   case when s.want_config and p.req is not null then (
-    select md5(string_agg(concat_ws('|', l.key, l.config_version, l.gains::text, t.output_min, t.output_max, t.sample_period_s), ';' order by l.key))
+    select md5(string_agg(concat_ws('|', l.key, l.config_version, l.gain_set_id, l.gains::text, t.output_min, t.output_max, t.sample_period_s), ';' order by l.key))
     from loop l join loop_template t on t.organisation_id = l.organisation_id and t.id = l.template_id
     where l.organisation_id = s.organisation_id and l.machine_id = s.machine_id) end as config_state
 from state s left join passed p on p.req = s.req

@@ -57,3 +57,17 @@ export function releaseHeldEmail(name: string, organisationName: string, gainSet
     ),
   };
 }
+
+export function paymentFailedEmail(organisationName: string, amount: string, url: string) {
+  return {
+    subject: `Payment for ${organisationName} on Flyball failed`,
+    ...layout(
+      "A payment did not go through",
+      [
+        `The payment of ${amount} for ${organisationName}'s Flyball subscription was declined.`,
+        "Machines already running keep working, but registering machines and starting releases are paused until the invoice is paid. Update the card in the billing portal to pay it.",
+      ],
+      { label: "Open billing", url },
+    ),
+  };
+}

@@ -39,7 +39,11 @@ async function findTakenSerials(db: Db, organisationId: string, serials: string[
 }
 
 /** Check a CSV of machines and, unless it is a check run or refused, register the valid rows in one transaction. */
-export async function importMachinesFromCsv(db: Db, { scope, actor, text, mode }: { scope: SiteScope; actor: string; text: string; mode: ImportMode }): Promise<MachineImportReport> {
+/**
+ * `beforeRegister` runs with the number of rows about to be registered, before anything is
+ * written (billing refuses new machines there: app/.server/billing/enforce.ts).
+ */
+export async function importMachinesFromCsv(db: Db, { scope, actor, text, mode, beforeRegister }: { scope: SiteScope; actor: string; text: string; mode: ImportMode; beforeRegister?: (adding: number) => Promise<void> }): Promise<MachineImportReport> {
   const organisationId = scope.organisationId;
   const parsed = parseMachineImport(text, { serial: SerialSchema, firmware: FirmwareSchema });
   if (!parsed.ok) throw new DomainError(parsed.code, parsed.message, { status: 400 });
@@ -56,6 +60,7 @@ export async function importMachinesFromCsv(db: Db, { scope, actor, text, mode }
   if (mode === "all-or-nothing" && rejected.length > 0) return { ...base, outcome: "refused", imported: [] };
   if (matched.ready.length === 0) return { ...base, outcome: "nothing", imported: [] };
 
+  await beforeRegister?.(matched.ready.length);
   const imported = await db.transaction((tx) => registerReadyRows(tx, { organisationId, actor, rows: matched.ready, mode, skipped: rejected.length }));
   return { ...base, outcome: "imported", imported };
 }

@@ -6,12 +6,17 @@ import type { Db } from "~/.server/db/client";
 import { refreshMachineHealth } from "~/.server/fleet/health";
 import { withdrawRetiredSigningKeys } from "~/.server/device-auth/signing-keys";
 import { advanceRelease, listActiveReleases } from "~/.server/releases/releases";
+import { SYNC_QUANTITY_JOB, SYNC_QUANTITY_QUEUE, syncQuantity } from "~/.server/billing/quantity";
+import { getStripe } from "~/.server/billing/stripe";
+import { APPLY_EVENT_JOB, applyStripeEvent } from "~/.server/billing/webhooks";
 
 export type JobDefinition<S extends z.ZodType> = {
   name: string;
   schema: S;
   /** Cron (UTC) for recurring jobs. */
   cron?: string;
+  /** pg-boss queue options (e.g. `stately` to coalesce jobs by singleton key). */
+  queue?: { policy?: "standard" | "stately" };
   handler: (db: Db, payload: z.infer<S>) => Promise<void>;
 };
 
@@ -80,4 +85,23 @@ export const advanceReleases = defineJob({
   },
 });
 
-export const JOBS = [ensureDigestPartitions, purgeDeviceJtis, refreshFleetHealth, withdrawSigningKeys, advanceReleases] as const;
+/** A verified Stripe event stored by POST /api/webhooks/stripe, applied once (app/.server/billing/webhooks.ts). */
+export const applyStripeEventJob = defineJob({
+  name: APPLY_EVENT_JOB,
+  schema: z.object({ eventId: z.string().min(1) }),
+  handler: async (db, { eventId }) => {
+    await applyStripeEvent(db, { eventId });
+  },
+});
+
+/** The subscription's quantity follows the active machines; coalesced per organisation. */
+export const syncBillingQuantity = defineJob({
+  name: SYNC_QUANTITY_JOB,
+  schema: z.object({ organisationId: z.string().min(1) }),
+  queue: SYNC_QUANTITY_QUEUE,
+  handler: async (db, { organisationId }) => {
+    await syncQuantity(db, getStripe(), { organisationId });
+  },
+});
+
+export const JOBS = [ensureDigestPartitions, purgeDeviceJtis, refreshFleetHealth, applyStripeEventJob, syncBillingQuantity, withdrawSigningKeys, advanceReleases] as const;

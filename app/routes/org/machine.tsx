@@ -1,6 +1,7 @@
 import { data, Form, useNavigation } from "react-router";
 import { z } from "zod";
 import { requireCapability, requireCapableMember } from "~/.server/auth/guards";
+import { requestQuantitySync } from "~/.server/billing/quantity";
 import { getDb } from "~/.server/db/client";
 import { actionFailure } from "~/.server/http/errors";
 
@@ -45,7 +46,8 @@ export async function action({ request, params }: Route.ActionArgs) {
         return data<ActionResult>({ ok: true, message: revoked ? "The device key was revoked. Issue a new enrolment code to enrol the controller again." : "No enrolled device key to revoke." });
       }
       case "decommission": {
-        await decommissionMachine(db, scope, input);
+        const result = await decommissionMachine(db, scope, input);
+        if (result.changed) await requestQuantitySync(db, { organisationId: scope.organisationId });
         return data<ActionResult>({ ok: true, message: "The machine is decommissioned; its device can no longer call the API." });
       }
     }

@@ -4,6 +4,8 @@ import { z } from "zod";
 import { requireCapableMember } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
 import { actionFailure } from "~/.server/http/errors";
+import { requireActiveSubscription } from "~/.server/billing/enforce";
+import { requestQuantitySync } from "~/.server/billing/quantity";
 
 import { importMachinesFromCsv, readImportUpload, type MachineImportReport } from "~/.server/fleet/machine-import";
 import { listRegistryOptions } from "~/.server/fleet/registry";
@@ -39,7 +41,9 @@ export async function action({ request, params }: Route.ActionArgs) {
   if (!mode.success) return data<ActionResult>({ ok: false, message: "Choose how to import." }, { status: 400 });
   const db = getDb();
   try {
-    const report = await importMachinesFromCsv(db, { scope: await getSiteScope(db, membership), actor: membership.user.id, text: upload.text, mode: mode.data });
+    const organisationId = membership.organisation.id;
+    const report = await importMachinesFromCsv(db, { scope: await getSiteScope(db, membership), actor: membership.user.id, text: upload.text, mode: mode.data, beforeRegister: (adding) => requireActiveSubscription(db, organisationId, { adding }) });
+    if (report.imported.length > 0) await requestQuantitySync(db, { organisationId });
     return data<ActionResult>({ ok: true, report }, { status: report.outcome === "refused" ? 422 : 200 });
   } catch (error) {
     return actionFailure<ActionResult>(error);

@@ -2,6 +2,8 @@ import { DomainError } from "~/lib/errors";
 import { data, Form, Link, useNavigation } from "react-router";
 import { requireCapableMember } from "~/.server/auth/guards";
 import { getDb } from "~/.server/db/client";
+import { requireActiveSubscription } from "~/.server/billing/enforce";
+import { requestQuantitySync } from "~/.server/billing/quantity";
 
 import { registerMachine } from "~/.server/fleet/machines";
 import { RegisterMachineSchema } from "~/lib/fleet/schemas";
@@ -30,7 +32,9 @@ export async function action({ request, params }: Route.ActionArgs) {
   const parsed = parseForm(RegisterMachineSchema, await request.formData());
   if (!parsed.ok) return data<ActionResult>({ ok: false, message: "Check the highlighted fields.", errors: parsed.errors }, { status: 400 });
   try {
+    await requireActiveSubscription(getDb(), membership.organisation.id, { adding: 1 });
     const created = await getDb().transaction((tx) => registerMachine(tx, { organisationId: membership.organisation.id, actor: membership.user.id, input: parsed.data }));
+    await requestQuantitySync(getDb(), { organisationId: membership.organisation.id });
     return data<ActionResult>({ ok: true, message: `${created.machine.serial} is registered.`, machineId: created.machine.id, serial: created.machine.serial, code: created.enrolmentCode.code, expiresAt: created.enrolmentCode.expiresAt.toISOString() });
   } catch (error) {
     if (error instanceof DomainError) {

@@ -18,6 +18,7 @@ import {
 import { organisation } from "./auth";
 import { site } from "./customers";
 import type { HealthThresholdSettings } from "~/lib/health/assess";
+import type { FopdtModel, IpdtModel, SopdtModel } from "~/lib/control/plant";
 
 const tenant = () =>
   text("organisation_id")
@@ -28,6 +29,8 @@ const tenant = () =>
 export type StoredGains = { kp: number; ki: number; kd: number };
 /** Allowed range of each gain; a gain set outside it is refused. */
 export type GainEnvelope = { kp: [number, number]; ki: [number, number]; kd: [number, number] };
+/** The plant a template's gain sets are checked against before they can be proposed. */
+export type ReferenceModel = FopdtModel | SopdtModel | IpdtModel;
 /** Limits at which health findings are raised (practice defaults, per template). */
 export type HealthThresholds = HealthThresholdSettings & {
   /** Ultimate period estimate Tu in seconds for the load-disturbance limit. */
@@ -68,6 +71,11 @@ export const loopTemplate = pgTable(
     defaultGains: jsonb("default_gains").$type<StoredGains>().notNull(),
     gainEnvelope: jsonb("gain_envelope").$type<GainEnvelope>().notNull(),
     thresholds: jsonb("thresholds").$type<HealthThresholds>().notNull(),
+    /** Reference plant for the closed-loop check on proposal; null = the check fails (admins may override). */
+    referenceModel: jsonb("reference_model").$type<ReferenceModel>(),
+    /** Minimum gain margin (factor) and phase margin (degrees) a proposed gain set must keep. */
+    minGainMargin: doublePrecision("min_gain_margin").notNull().default(2),
+    minPhaseMarginDeg: doublePrecision("min_phase_margin_deg").notNull().default(30),
     position: integer("position").notNull().default(0),
     createdAt: timestamp("created_at", { withTimezone: true }).notNull().defaultNow(),
   },

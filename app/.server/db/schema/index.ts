@@ -8,3 +8,4 @@ export * from "./digests";
 export * from "./api-tokens";
 export * from "./gain-sets";
 export * from "./releases";
+export * from "./billing";

@@ -1,6 +1,7 @@
 // POST /api/v1/o/:slug/machines/:id/enrolment-code   → 201 {enrolmentCode: {code, expiresAt}}
 // POST /api/v1/o/:slug/machines/:id/revoke-device    → 200 {revoked}
 // POST /api/v1/o/:slug/machines/:id/decommission     → 200 {changed}
+import { requestQuantitySync } from "~/.server/billing/quantity";
 import { getDb } from "~/.server/db/client";
 import { apiError, jsonResponse, methodNotAllowed } from "~/.server/http/json";
 import { requireApiCaller } from "~/.server/fleet/api-auth";
@@ -22,8 +23,11 @@ export function action({ request, params }: Route.ActionArgs) {
       }
       case "revoke-device":
         return revokeMachineDevice(getDb(), caller.scope, input);
-      case "decommission":
-        return decommissionMachine(getDb(), caller.scope, input);
+      case "decommission": {
+        const result = await decommissionMachine(getDb(), caller.scope, input);
+        if (result.changed) await requestQuantitySync(getDb(), { organisationId: caller.scope.organisationId });
+        return result;
+      }
       default:
         return apiError(404, "not_found", "No such command.");
     }

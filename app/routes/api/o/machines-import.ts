@@ -4,6 +4,8 @@
 //  rejected: [{row, serial?, code, message}], ready: [{row, serial, model, site}]}
 // with 200, or 422 when all-or-nothing refused the file. Enrolment codes are in this answer only.
 import { z } from "zod";
+import { requireActiveSubscription } from "~/.server/billing/enforce";
+import { requestQuantitySync } from "~/.server/billing/quantity";
 import { getDb } from "~/.server/db/client";
 import { apiError, jsonResponse, methodNotAllowed, payloadTooLarge } from "~/.server/http/json";
 import { env } from "~/.server/env";
@@ -52,7 +54,9 @@ export function action({ request, params }: Route.ActionArgs) {
     if (!upload.ok) return upload.status === 413 ? payloadTooLarge(upload.message) : apiError(upload.status, upload.code, upload.message);
     const mode = ModeSchema.safeParse(upload.mode);
     if (!mode.success) return apiError(400, "invalid_mode", "mode: choose all-or-nothing, valid-rows or check.", [{ path: ["mode"], message: "Choose all-or-nothing, valid-rows or check." }]);
-    const report = await importMachinesFromCsv(getDb(), { scope: caller.scope, actor: caller.actor, text: upload.text, mode: mode.data });
+    const organisationId = caller.scope.organisationId;
+    const report = await importMachinesFromCsv(getDb(), { scope: caller.scope, actor: caller.actor, text: upload.text, mode: mode.data, beforeRegister: (adding) => requireActiveSubscription(getDb(), organisationId, { adding }) });
+    if (report.imported.length > 0) await requestQuantitySync(getDb(), { organisationId });
     return jsonResponse(report, report.outcome === "refused" ? 422 : 200);
   });
 }

@@ -5,6 +5,7 @@ import { requireApiCaller } from "~/.server/fleet/api-auth";
 import { searchParams } from "~/.server/fleet/query";
 import { handleApi } from "~/.server/http/errors";
 import { apiError, jsonResponse, methodNotAllowed, readJsonBody, zodIssues } from "~/.server/http/json";
+import { requireActiveSubscription } from "~/.server/billing/enforce";
 import { createRelease, listReleases } from "~/.server/releases/releases";
 import { CreateReleaseSchema, ReleaseListQuerySchema } from "~/lib/release/schemas";
 import type { Route } from "./+types/releases";
@@ -26,7 +27,8 @@ export function action({ request, params }: Route.ActionArgs) {
     if (!body.ok) return body.response;
     const input = CreateReleaseSchema.safeParse(body.value);
     if (!input.success) return apiError(400, "invalid_body", "Check the release's fields.", zodIssues(input.error));
-    // BILLING: the subscription check (402 subscription_inactive) belongs here, before anything changes.
+    // Running machines keep working when billing is held; starting a release does not (402).
+    await requireActiveSubscription(getDb(), caller.scope.organisationId);
     const created = await createRelease(getDb(), { organisationId: caller.scope.organisationId, actor: caller.actor, input: input.data });
     return jsonResponse(created, 201);
   });
