@@ -20,7 +20,7 @@ async function run(job: typeof ensureDigestPartitions | typeof purgeDeviceJtis |
 
 it("lists every job tested here", () => {
   // The billing jobs are tested in billing-webhooks.test.ts and billing-quantity.test.ts.
-  expect(JOBS.map((j) => j.name).sort()).toEqual(["billing.apply-stripe-event", "billing.sync-quantity", "device.purge-jtis", "fleet.ensure-digest-partitions", "fleet.refresh-health"]);
+  expect(JOBS.map((j) => j.name).sort()).toEqual(["billing.apply-stripe-event", "billing.sync-quantity", "device.purge-jtis", "device.withdraw-signing-keys", "fleet.ensure-digest-partitions", "fleet.refresh-health", "release.advance"]);
 });
 
 describe("device.purge-jtis", () => {

@@ -61,7 +61,7 @@ function matches(ifNoneMatch: string | null, etag: string): boolean {
  * configuration costs no query of its own.
  */
 export async function getDeviceConfig(ctx: AuthenticatedDevice, ifNoneMatch: string | null, now = new Date()) {
-  const key = await loadSigningKey(getDb(), ctx.organisationId);
+  const key = await loadSigningKey(getDb(), ctx.organisationId, ctx.signingKid);
   const etag = configEtag(key.kid, ctx.deviceId, ctx.configState);
   if (matches(ifNoneMatch, etag)) return { notModified: true as const, etag };
   const rows = await getPool().query<LoopRow>({ name: "device_config_loops", text: LOOPS_SQL, values: [ctx.organisationId, ctx.machineId] });

@@ -6,8 +6,8 @@
 // Rotation (rotateSigningKey, `npm run keys:rotate -- <slug>`): a new key becomes the one
 // active key and signs from then on; the old one is `retired` and stays in the JWKS for the
 // overlap (SIGNING_KEY_OVERLAP_MS, longer than a configuration lives), after which the
-// `device.withdraw-signing-keys` job withdraws it from the JWKS. Each process caches the active
-// key for KEY_CACHE_MS, so another process signs with the new key within that time.
+// `device.withdraw-signing-keys` job withdraws it from the JWKS. Config pulls learn the active
+// kid from their gate statement, so the app signs with the new key from the next pull on.
 //
 // Private keys are stored encrypted (AES-256-GCM under the key-encryption key in
 // FLYBALL_KEY_ENCRYPTION_KEY, which npm start generates into .local/ and which never enters the
@@ -24,9 +24,9 @@ export type SigningKey = { kid: string; alg: "EdDSA"; privateKey: CryptoKey | Ui
 /** The stored form of a private JWK: `{ enc, iv, tag, ct }`, all base64url. */
 export type SealedJwk = { enc: "A256GCM"; iv: string; tag: string; ct: string };
 
-const cache = new Map<string, { at: number; key: Promise<SigningKey> }>();
+const cache = new Map<string, { at: number; kid: string | null; key: Promise<SigningKey> }>();
 
-/** How long a process keeps using the active key it loaded. */
+/** How long a process keeps using the active key it loaded when the caller cannot name the current kid. */
 export const KEY_CACHE_MS = 60_000;
 /** How long a retired key stays published: a configuration lives 24 h, devices may be offline a while. */
 export const SIGNING_KEY_OVERLAP_MS = 7 * 24 * 3600_000;
@@ -84,13 +84,21 @@ async function loadActiveKey(db: Db, organisationId: string): Promise<SigningKey
   return { kid: row.id, alg: "EdDSA", privateKey: await importJWK({ ...jwk, alg: "EdDSA" }, "EdDSA") };
 }
 
-/** The organisation's active signing key (cached per process for KEY_CACHE_MS). */
-export function loadSigningKey(db: Db, organisationId: string, now = Date.now()): Promise<SigningKey> {
+/**
+ * The organisation's active signing key, cached per process. `activeKid` (the config pull's
+ * gate statement reads it) makes a rotation take effect at the next pull; without it the cached
+ * key is used for KEY_CACHE_MS.
+ */
+export function loadSigningKey(db: Db, organisationId: string, activeKid?: string | null, now = Date.now()): Promise<SigningKey> {
   const cached = cache.get(organisationId);
-  if (cached && now - cached.at < KEY_CACHE_MS) return cached.key;
+  if (cached && (activeKid ? cached.kid === activeKid : now - cached.at < KEY_CACHE_MS)) return cached.key;
   const key = loadActiveKey(db, organisationId);
   key.catch(() => cache.delete(organisationId));
-  cache.set(organisationId, { at: now, key });
+  cache.set(organisationId, { at: now, kid: activeKid ?? null, key });
+  key.then((k) => {
+    const entry = cache.get(organisationId);
+    if (entry?.key === key) entry.kid = k.kid;
+  }, () => undefined);
   return key;
 }
 
