@@ -22,6 +22,9 @@ export default [
     route("models", "routes/org/models.tsx"),
     route("developer", "routes/org/developer.tsx"),
     route("bench", "routes/org/bench.tsx"),
+    route("releases", "routes/org/releases.tsx"),
+    route("releases/new", "routes/org/releases-new.tsx"),
+    route("releases/:id", "routes/org/release.tsx"),
     route("billing", "routes/org/billing.tsx"),
   ]),
 

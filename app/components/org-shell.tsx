@@ -14,6 +14,7 @@ export const NAV_ITEMS: NavItem[] = [
   { to: "customers", label: "Customers & sites", capability: "registry:manage" },
   { to: "models", label: "Models & loops", capability: "registry:manage" },
   { to: "bench", label: "Tuning bench", capability: "tuning:use" },
+  { to: "releases", label: "Releases", capability: "registry:read" },
   { to: "team", label: "Team", capability: "team:read" },
   { to: "developer", label: "Developer", capability: "registry:manage" },
   { to: "billing", label: "Billing", capability: "billing:manage" },
