@@ -4,6 +4,13 @@ import { closeDb, getDb } from "~/.server/db/client";
 import { organisation } from "~/.server/db/schema";
 import { addMember, assignSite, createCustomer, createMachine, createMachineModel, createOrganisation, createSite, createUser } from "../tests/factories";
 import { DEMO_FLEETS, DEMO_ORGANISATIONS, DEMO_PASSWORD } from "./seed/demo-data";
+import { seedDemoRelease } from "./seed/demo-release";
+
+/** One demo release per organisation with a fleet (scripts/seed/demo-release.ts). */
+const DEMO_RELEASES: Record<string, { templateKey: string; author: string; approver: string | null }> = {
+  corvid: { templateKey: "screw_speed", author: "engineer@corvid.example", approver: "engineer2@corvid.example" },
+  pellworth: { templateKey: "flow", author: "owner@pellworth.example", approver: null },
+};
 
 export async function seedDemo(): Promise<boolean> {
   const db = getDb();
@@ -13,8 +20,10 @@ export async function seedDemo(): Promise<boolean> {
     for (const demo of DEMO_ORGANISATIONS) {
       const org = await createOrganisation(tx, { name: demo.name, slug: demo.slug });
       const members = new Map<string, string>();
+      const userIds = new Map<string, string>();
       for (const person of demo.people) {
         const created = await createUser(tx, { email: person.email, name: person.name, password: DEMO_PASSWORD });
+        userIds.set(person.email, created.id);
         const membership = await addMember(tx, { organisationId: org.id, userId: created.id, role: person.role });
         members.set(person.email, membership.id);
       }
@@ -44,6 +53,10 @@ export async function seedDemo(): Promise<boolean> {
               firmware: fleet.firmware[n % fleet.firmware.length],
             });
           }
+        }
+        const release = DEMO_RELEASES[demo.slug];
+        if (release) {
+          await seedDemoRelease(tx, { organisationId: org.id, modelId: model.id, templateKey: release.templateKey, authorId: userIds.get(release.author)!, approverId: release.approver ? userIds.get(release.approver)! : null });
         }
       }
       for (const assignment of demo.siteManagers) {

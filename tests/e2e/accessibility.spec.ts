@@ -10,7 +10,7 @@ import { expect, test as base, type Page } from "@playwright/test";
 import type { RouteConfigEntry } from "@react-router/dev/routes";
 import axe from "axe-core";
 import { and, asc, eq } from "drizzle-orm";
-import { customer, digest, loop, machine, member, organisation, site, user } from "~/.server/db/schema";
+import { customer, digest, loop, machine, member, organisation, release, site, user } from "~/.server/db/schema";
 import routes from "~/routes";
 import { createDeviceIdentity, DeviceClient, sampleDigest } from "../../scripts/simulator/device-client";
 import { createInvitation } from "../factories";
@@ -50,7 +50,7 @@ function pagePatterns(): string[] {
 }
 
 /** What the seeded demo database gives the placeholders: see demoData below. */
-type DemoData = { machineId: string; invitationId: string };
+type DemoData = { machineId: string; invitationId: string; releaseId: string };
 
 /** Where each URL parameter's value comes from, keyed by the segment before it. */
 const PARAMETERS: Record<string, (demo: DemoData) => string> = {
@@ -58,6 +58,7 @@ const PARAMETERS: Record<string, (demo: DemoData) => string> = {
   // A Halden Plastics machine: every role, the site manager included, may see it.
   "machines/:id": (demo) => demo.machineId,
   "invitations/:id": (demo) => demo.invitationId,
+  "releases/:id": (demo) => demo.releaseId,
 };
 
 function fillParameters(pattern: string, demo: DemoData): string {
@@ -206,7 +207,9 @@ async function demoData(): Promise<DemoData> {
     .where(and(eq(member.organizationId, target.organisationId), eq(member.role, "owner")))
     .limit(1);
   const invitation = await createInvitation(db(), { organisationId: target.organisationId, inviterId: owner!.userId, email: `new-colleague-${Date.now()}@a11y.example`, role: "engineer" });
-  return { machineId: target.id, invitationId: invitation.id };
+  const [demoRelease] = await db().select({ id: release.id }).from(release).where(eq(release.organisationId, target.organisationId)).orderBy(asc(release.createdAt)).limit(1);
+  if (!demoRelease) throw new Error("the demo database has no release: run scripts/seed.ts");
+  return { machineId: target.id, invitationId: invitation.id, releaseId: demoRelease.id };
 }
 
 /** Enrol a device for the machine and post 24 five-minute windows per loop; the second loop saturates now and then. */
