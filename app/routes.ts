@@ -10,6 +10,7 @@ export default [
   route("reset-password", "routes/auth/reset-password.tsx"),
   route("invitations/:id", "routes/auth/invitation.tsx"),
   route("organisations/new", "routes/new-organisation.tsx"),
+  route("unsubscribe", "routes/unsubscribe.tsx"),
 
   route("o/:slug", "routes/org/layout.tsx", [
     index("routes/org/overview.tsx"),
@@ -51,6 +52,15 @@ export default [
     route("v1/o/:slug/billing", "routes/api/o/billing.ts"),
     route("v1/o/:slug/billing/:session", "routes/api/o/billing-session.ts"),
     route("webhooks/stripe", "routes/api/webhooks/stripe.ts"),
+    route("v1/o/:slug/loops/:id/health", "routes/api/o/loop-health.ts"),
+    route("v1/o/:slug/overview", "routes/api/o/overview.ts"),
+    route("v1/o/:slug/findings", "routes/api/o/findings.ts"),
+    route("v1/o/:slug/findings/acknowledge", "routes/api/o/findings-acknowledge.ts"),
+    route("v1/o/:slug/findings/:id", "routes/api/o/finding.ts"),
+    route("v1/o/:slug/findings/:id/:command", "routes/api/o/finding-command.ts"),
+    route("v1/o/:slug/retune-requests", "routes/api/o/retune-requests.ts"),
+    route("v1/o/:slug/retune-requests/:id/state", "routes/api/o/retune-request-state.ts"),
+    route("v1/o/:slug/alert-subscription", "routes/api/o/alert-subscription.ts"),
     ...prefix("v1/compute", [
       route("margins", "routes/api/compute/margins.ts"),
       route("tune", "routes/api/compute/tune.ts"),

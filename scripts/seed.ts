@@ -3,6 +3,8 @@ import { sql } from "drizzle-orm";
 import { closeDb, getDb } from "~/.server/db/client";
 import { organisation } from "~/.server/db/schema";
 import { addMember, assignSite, createCustomer, createMachine, createMachineModel, createOrganisation, createSite, createUser } from "../tests/factories";
+import { getStripe } from "~/.server/billing/stripe";
+import { seedDemoBilling } from "./seed/billing";
 import { DEMO_FLEETS, DEMO_ORGANISATIONS, DEMO_PASSWORD } from "./seed/demo-data";
 import { seedDemoRelease } from "./seed/demo-release";
 
@@ -72,5 +74,8 @@ export async function seedDemo(): Promise<boolean> {
 if (import.meta.url === `file://${process.argv[1]}`) {
   const seeded = await seedDemo();
   console.log(seeded ? "Demo data seeded." : "Database already has data; demo seed skipped.");
+  // Every start: the demo organisations' subscriptions on the local Stripe (idempotent).
+  const billed = await seedDemoBilling(getDb(), getStripe(), DEMO_ORGANISATIONS.map((o) => o.slug));
+  console.log(`Demo billing on the local Stripe: ${billed.join(", ") || "none"}.`);
   await closeDb();
 }

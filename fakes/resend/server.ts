@@ -101,6 +101,9 @@ export function createResendFake({ dataDir, apiKeyPrefix = "re_" }: { dataDir: s
     renameSync(`${file}.tmp`, file);
   }
 
+  /** Idempotency keys seen in the last 24 hours (in memory, as long as the fake runs). */
+  const idempotent = new Map<string, { id: string; at: number }>();
+
   function list(): StoredMessage[] {
     return readdirSync(dataDir)
       .filter((f) => f.endsWith(".json"))
@@ -138,6 +141,11 @@ export function createResendFake({ dataDir, apiKeyPrefix = "re_" }: { dataDir: s
         return send(res, 422, errorBody(422, missing ? "missing_required_field" : "validation_error", message));
       }
       const m = parsed.data;
+      // Idempotency-Key (as Resend): a key seen before answers the first message's id, stores nothing.
+      const idempotencyKey = req.headers["idempotency-key"];
+      const keyText = typeof idempotencyKey === "string" && idempotencyKey ? idempotencyKey : null;
+      const seenId = keyText ? idempotent.get(keyText) : undefined;
+      if (seenId && Date.now() - seenId.at < 24 * 3_600_000) return send(res, 200, { id: seenId.id });
       const message: StoredMessage = {
         id: randomUUID(),
         from: m.from,
@@ -151,6 +159,7 @@ export function createResendFake({ dataDir, apiKeyPrefix = "re_" }: { dataDir: s
         createdAt: new Date().toISOString(),
       };
       save(message);
+      if (keyText) idempotent.set(keyText, { id: message.id, at: Date.now() });
       return send(res, 200, { id: message.id });
     }
 

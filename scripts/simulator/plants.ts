@@ -35,8 +35,10 @@ export function ageingFor(serial: string, index: number): Ageing {
   for (const c of serial) h = Math.imul(h ^ c.charCodeAt(0), 16777619) >>> 0;
   const r = (h % 1000) / 1000;
   return {
-    // A handful of lines wear their heaters fast enough to run into saturation within the month.
-    heaterWearPerDay: index % 7 === 3 ? 0.011 : 0.002 + 0.004 * r,
+    // A handful of lines wear their heaters fast enough to run into saturation within the month:
+    // a zone needs (215 − 25)/(1.2 · wear) counts of 255, so it saturates once wear < 0.62,
+    // i.e. after 28 days at 1.35 % a day (0.011 stayed short of it for the whole month).
+    heaterWearPerDay: index % 7 === 3 ? 0.0135 : 0.002 + 0.004 * r,
     foulingPerDay: index % 5 === 1 ? 0.05 : 0.01 * r,
     loadStepsPerHour: 0.5 + 2 * r,
     // One line has a sticking actuator that makes its loop oscillate.

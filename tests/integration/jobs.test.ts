@@ -6,21 +6,25 @@ import { randomUUID } from "node:crypto";
 import { afterAll, describe, expect, it } from "vitest";
 import type { Db } from "~/.server/db/client";
 import { deviceJti, digest, loop, machine } from "~/.server/db/schema";
-import { ensureDigestPartitions, JOBS, purgeDeviceJtis, refreshFleetHealth } from "~/.server/jobs/definitions";
+import { ensureDigestPartitions, healthJobHooks, JOBS, purgeDeviceJtis, refreshFleetHealth } from "~/.server/jobs/definitions";
 import { assessLoopHealth } from "~/lib/health";
 import { sampleDigest } from "../../scripts/simulator/device-client";
 import { createTeam, createTestFleet, DEFAULT_THRESHOLDS, uniqueSuffix } from "../factories";
 import { closeDb, db } from "../support/db";
 
 afterAll(closeDb);
+// Alerts are queued through pg-boss in the worker; here they are only counted.
+const alertsQueued: string[] = [];
+healthJobHooks.alertsPending = async (organisationId) => void alertsQueued.push(organisationId);
 
-async function run(job: typeof ensureDigestPartitions | typeof purgeDeviceJtis | typeof refreshFleetHealth, handle: Db = db()) {
+type CronJob = typeof ensureDigestPartitions | typeof purgeDeviceJtis | typeof refreshFleetHealth;
+async function run(job: CronJob, handle: Db = db()) {
   await job.handler(handle, job.schema.parse({}));
 }
 
 it("lists every job tested here", () => {
   // The billing jobs are tested in billing-webhooks.test.ts and billing-quantity.test.ts.
-  expect(JOBS.map((j) => j.name).sort()).toEqual(["billing.apply-stripe-event", "billing.sync-quantity", "device.purge-jtis", "device.withdraw-signing-keys", "fleet.ensure-digest-partitions", "fleet.refresh-health", "release.advance"]);
+  expect(JOBS.map((j) => j.name).sort()).toEqual(["billing.apply-stripe-event", "billing.sync-quantity", "device.purge-jtis", "device.withdraw-signing-keys", "fleet.ensure-digest-partitions", "fleet.refresh-health", "health.deliver-alerts", "health.evaluate-machine", "health.sweep", "release.advance"]);
 });
 
 describe("device.purge-jtis", () => {

@@ -279,3 +279,25 @@ describe("a healthy release", () => {
     expect(audit.rows.map((r) => r.action)).toEqual(["release.created", "release.wave_offered", "release.wave_offered", "release.completed"]);
   });
 });
+
+describe("pilot devices that reject", () => {
+  it("hold the release when more than the allowed share reject, and each refusal opens a config_rejected finding", async () => {
+    const set = await insertGainSet("approved", 6, { kp: 3.5, ki: 2.2, kd: 0 });
+    const created = await postJson(`/api/v1/o/${slug}/releases`, body(set), sessions.engineer);
+    expect(created.status).toBe(201);
+    const { id } = await created.json();
+    await sync(devices[0]);
+    // The second pilot device refuses what it was offered.
+    const [offered] = (await releaseView(id)).targets.filter((t: { machineId: string }) => t.machineId === fleet.machines[1].id);
+    const ack = await devices[1].client.ack({ loop: "speed", version: offered.version, status: "rejected", reason: "gains outside this drive's limits" });
+    expect(ack.status).toBe(200);
+    const findings = await db().execute<{ kind: string; severity: string }>(sql`select kind, severity from finding where organisation_id = ${team.organisation.id} and loop_id = ${offered.loopId}::uuid and state = 'open'`);
+    expect(findings.rows).toEqual([{ kind: "config_rejected", severity: "critical" }]);
+    await advanceRelease(db(), { organisationId: team.organisation.id, releaseId: id });
+    const view = await releaseView(id);
+    expect(view.state).toBe("held");
+    expect(view.heldReason).toMatch(/1 of 2 pilot devices \(50 %\) rejected the configuration/);
+    expect(view.targets.find((t: { machineId: string }) => t.machineId === fleet.machines[1].id)).toMatchObject({ state: "rejected", rejectReason: "gains outside this drive's limits" });
+  });
+});
+

@@ -8,6 +8,7 @@ import { createHash } from "node:crypto";
 import { SignJWT } from "jose";
 import type { z } from "zod";
 import { recordAudit } from "~/.server/audit/record-audit";
+import { openConfigRejectedFinding } from "~/.server/health/evaluate";
 import { getDb, getPool } from "~/.server/db/client";
 import type { AckRequestSchema } from "./schemas";
 import { loadSigningKey } from "~/.server/device-auth/signing-keys";
@@ -106,7 +107,7 @@ export async function acknowledgeConfig(ctx: DeviceContext, input: z.infer<typeo
   const applied = input.status === "applied";
   // The loop's acknowledgement, the gain set it now runs, and the release target (or its roll
   // back) that offered this version, in one statement.
-  await getPool().query(
+  const matched = await getPool().query<{ n: string }>(
     `with l as (
        update loop set ack_status = $4, ack_reason = $5, acked_at = now(),
          applied_version = case when $4 = 'applied' then greatest(coalesce(applied_version, 0), $6) else applied_version end,
@@ -133,5 +134,9 @@ export async function acknowledgeConfig(ctx: DeviceContext, input: z.infer<typeo
     targetId: row.id,
     detail: { loop: input.loop, version: input.version, reason: input.reason ?? null },
   });
+  // A refusal of what a release (or its roll back) offered is a finding for the loop.
+  if (!applied && Number(matched.rows[0]?.n ?? 0) > 0) {
+    await openConfigRejectedFinding(getDb(), { organisationId: ctx.organisationId, loopId: row.id, reason: input.reason ?? "no reason given", version: input.version });
+  }
   return { loop: input.loop, version: input.version, status: input.status, currentVersion: row.config_version };
 }

@@ -2,7 +2,7 @@
 // refused. Idempotent on (loop, seq) through digest_seq (see schema/digests.ts).
 import { createBatcher } from "~/.server/db/batch";
 import { getIngestPool, getPool } from "~/.server/db/client";
-import { scheduleHealthRefresh } from "~/.server/fleet/health";
+import { requestHealthEvaluation } from "~/.server/health/queue";
 import { deviceUnauthorized, refusalOf, runOncePerToken, TOKEN_CHECK_CTES, type DeviceContext, type TokenStanding, type VerifiedToken } from "~/.server/device-auth/tokens";
 import { DIGEST_FIELDS, digestSqlType } from "~/lib/health/digest-fields";
 import { DigestSchema, type DigestInput } from "./schemas";
@@ -42,7 +42,8 @@ const COLUMNS: readonly (readonly [string, string])[] = [
 // one round trip. Only the digests of requests that pass the checks go on. The claim on
 // (loop, seq) and the digest row go in together, so a retry claims nothing and stores nothing.
 // No (loop, seq) appears twice in one statement (storePosts sees to it). A newly claimed
-// (loop, seq) has no digest yet, so every claimed row is stored and is counted from the claims.
+// (loop, seq) has no digest yet, so every claimed row is stored and is counted from the claims,
+// and added once to its loop's hourly rollup (loop_hour).
 // Claims are taken in key order so that concurrent batches never wait on each other in a cycle.
 const INGEST_SQL = `
 with request as (
@@ -64,6 +65,21 @@ with request as (
   insert into digest (organisation_id, ${COLUMNS.map(([name]) => name).join(", ")})
   select organisation_id, ${COLUMNS.map(([name]) => name).join(", ")} from accepted
   on conflict do nothing
+), rolled as (
+  -- The hourly rollups (schema/health.ts): each newly claimed digest added once, in numeric.
+  insert into loop_hour as h (organisation_id, loop_id, hour, digests, samples, seconds, iae, sat_samples, clamp_samples, pinned_samples, err2_samples, osc_count, last_window_end, gain_version)
+  select organisation_id, loop_id, hour, count(*), sum(samples), sum(extract(epoch from window_end - window_start)), sum(iae::numeric),
+         sum(sat::numeric * samples), sum(int_clamp_frac::numeric * samples), sum(least(int_clamp_frac, sat)::numeric * samples),
+         sum((err_rms * err_rms)::numeric * samples), sum(osc_count), max(window_end), max(gain_version)
+  from (select a.*, date_bin('1 hour', a.window_start, timestamptz '2000-01-01 00:00:00+00') as hour, least(1, a.sat_high_frac + a.sat_low_frac) as sat from accepted a) x
+  group by organisation_id, loop_id, hour
+  order by organisation_id, loop_id, hour
+  on conflict (organisation_id, loop_id, hour) do update set
+    digests = h.digests + excluded.digests, samples = h.samples + excluded.samples, seconds = h.seconds + excluded.seconds,
+    iae = h.iae + excluded.iae, sat_samples = h.sat_samples + excluded.sat_samples, clamp_samples = h.clamp_samples + excluded.clamp_samples,
+    pinned_samples = h.pinned_samples + excluded.pinned_samples, err2_samples = h.err2_samples + excluded.err2_samples,
+    osc_count = h.osc_count + excluded.osc_count, last_window_end = greatest(h.last_window_end, excluded.last_window_end),
+    gain_version = greatest(h.gain_version, excluded.gain_version)
 ), stored_per_request as (
   select req, count(*)::int as stored from accepted group by req
 )
@@ -203,6 +219,6 @@ export async function ingestDigests(token: VerifiedToken, items: unknown[], nowM
   const outcome = await ingest.run({ token, rows: valid });
   const refusal = refusalOf(outcome);
   if (refusal) throw deviceUnauthorized(refusal);
-  if (outcome.stored > 0) scheduleHealthRefresh(token.organisationId, token.machineId);
+  if (outcome.stored > 0) requestHealthEvaluation(token.organisationId, token.machineId);
   return { accepted: outcome.stored, duplicates: duplicates + (valid.length - outcome.stored), rejected };
 }

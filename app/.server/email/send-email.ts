@@ -22,10 +22,14 @@ function getClient(): Resend {
   return client;
 }
 
-export async function sendEmail(message: OutgoingEmail): Promise<{ id: string }> {
+/**
+ * Send one e-mail. `idempotencyKey` goes out as Resend's `Idempotency-Key` header: the service
+ * (and the local fake) answers a repeat of the same key with the first message instead of a second.
+ */
+export async function sendEmail(message: OutgoingEmail, { idempotencyKey }: { idempotencyKey?: string } = {}): Promise<{ id: string }> {
   let result: Awaited<ReturnType<Resend["emails"]["send"]>>;
   try {
-    result = await getClient().emails.send({ from: env().MAIL_FROM, ...message });
+    result = await getClient().emails.send({ from: env().MAIL_FROM, ...message }, idempotencyKey ? { idempotencyKey } : undefined);
   } catch (cause) {
     throw new EmailDeliveryError(`The e-mail service could not be reached (${String(cause)}).`);
   }

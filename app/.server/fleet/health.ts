@@ -1,9 +1,8 @@
 // Keeps each loop's health summary (band, score, reasons, last digest time) in step with its
-// digests. Ingest schedules a refresh per machine, coalesced, so a burst of batches costs one
-// recomputation; the worker also refreshes on a schedule (app/.server/jobs).
+// digests. Run by the loop-health evaluation job (~/.server/health/evaluate.ts), which ingest
+// queues per machine through pg-boss (~/.server/health/queue.ts).
 import { sql } from "drizzle-orm";
 import type { Db } from "~/.server/db/client";
-import { getDb } from "~/.server/db/client";
 import type { HealthThresholds } from "~/.server/db/schema";
 import { assessLoopHealth } from "~/lib/health";
 
@@ -61,24 +60,4 @@ export async function refreshMachineHealth(db: Db, { organisationId, machineId, 
         health_reasons = ${JSON.stringify(assessment.reasons)}::jsonb, last_digest_at = ${last.toISOString()}::timestamptz
       where organisation_id = ${organisationId} and id = ${loopId}::uuid`);
   }
-}
-
-const pending = new Map<string, ReturnType<typeof setTimeout>>();
-const lastRefresh = new Map<string, number>();
-/** A machine posting continuously is reassessed at most this often (its digests span minutes). */
-const MIN_INTERVAL_MS = 15_000;
-
-/** Refresh a machine's loop health shortly, coalescing repeated requests. */
-export function scheduleHealthRefresh(organisationId: string, machineId: string, delayMs = 1500): void {
-  const key = `${organisationId}:${machineId}`;
-  if (pending.has(key)) return;
-  const wait = Math.max(delayMs, (lastRefresh.get(key) ?? 0) + MIN_INTERVAL_MS - Date.now());
-  const timer = setTimeout(() => {
-    pending.delete(key);
-    if (lastRefresh.size > 100_000) lastRefresh.clear();
-    lastRefresh.set(key, Date.now());
-    refreshMachineHealth(getDb(), { organisationId, machineId }).catch((error) => console.error("health refresh failed", error));
-  }, wait);
-  timer.unref?.();
-  pending.set(key, timer);
 }

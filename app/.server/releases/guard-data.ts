@@ -52,16 +52,16 @@ export async function loadGuardInput(db: Db, { organisationId, releaseId, loopTe
 }
 
 /**
- * Pilot loops with an open critical finding opened since the release started. Findings come
- * from the loop-health work (table `finding`); until that table exists there are none.
+ * Pilot loops with an open (or acknowledged) critical finding opened since the release started
+ * (findings: app/.server/health/). `config_rejected` findings are left out here: rejections
+ * are judged by the reject share, which would mean nothing if one of them held the release.
  */
 export async function listCriticalPilotLoops(db: Db, { organisationId, releaseId, wave, since }: { organisationId: string; releaseId: string; wave: number; since: Date }): Promise<string[]> {
-  const exists = await db.execute<{ t: string | null }>(sql`select to_regclass('public.finding')::text as t`);
-  if (!exists.rows[0]?.t) return [];
   const rows = await db.execute<{ loop_id: string }>(sql`
     select distinct f.loop_id from finding f
     join release_target rt on rt.organisation_id = f.organisation_id and rt.loop_id = f.loop_id
     where f.organisation_id = ${organisationId} and rt.release_id = ${releaseId}::uuid and rt.wave = ${wave} and rt.include
-      and f.severity = 'critical' and f.state = 'open' and f.opened_at >= ${since.toISOString()}::timestamptz`);
+      and f.severity = 'critical' and f.state in ('open', 'acknowledged') and f.kind <> 'config_rejected'
+      and f.opened_at >= ${since.toISOString()}::timestamptz`);
   return rows.rows.map((r) => r.loop_id);
 }

@@ -9,3 +9,4 @@ export * from "./api-tokens";
 export * from "./gain-sets";
 export * from "./releases";
 export * from "./billing";
+export * from "./health";
