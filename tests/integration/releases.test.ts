@@ -13,7 +13,7 @@ import { createDeviceIdentity, DeviceClient } from "../../scripts/simulator/devi
 import { ageingFor, LoopSim } from "../../scripts/simulator/plants";
 import { assignSite, createTeam, createTestFleet } from "../factories";
 import { closeDb, db } from "../support/db";
-import { APP_URL, get, inbox, postJson, signIn, type Session } from "../support/http";
+import { APP_URL, get, inbox, postForm, postJson, signIn, type Session } from "../support/http";
 
 type Fleet = Awaited<ReturnType<typeof createTestFleet>>;
 type Device = { client: DeviceClient; pin: PinnedJwks; applied: Map<string, number>; etag?: string; sim: LoopSim; seq: number };
@@ -298,6 +298,20 @@ describe("pilot devices that reject", () => {
     expect(view.state).toBe("held");
     expect(view.heldReason).toMatch(/1 of 2 pilot devices \(50 %\) rejected the configuration/);
     expect(view.targets.find((t: { machineId: string }) => t.machineId === fleet.machines[1].id)).toMatchObject({ state: "rejected", rejectReason: "gains outside this drive's limits" });
+
+    // The page's commands check the role and the organisation themselves.
+    const before = await speedLoops();
+    for (const [who, status] of [["viewer", 403], ["site_manager", 403], ["stranger", 404]] as const) {
+      for (const intent of ["resume", "rollback"]) {
+        const response = await postForm(`/o/${slug}/releases/${id}`, { intent }, sessions[who]);
+        expect(response.status, `${who} ${intent}`).toBe(status);
+      }
+    }
+    expect((await releaseView(id)).state).toBe("held");
+    expect(await speedLoops()).toEqual(before);
+    const resumed = await postForm(`/o/${slug}/releases/${id}?_data`, { intent: "rollback" }, sessions.engineer);
+    expect(resumed.status).toBeLessThan(400);
+    expect((await releaseView(id)).state).toBe("rolled_back");
   });
 });
 

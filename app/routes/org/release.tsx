@@ -122,7 +122,7 @@ export default function ReleasePage({ loaderData, actionData }: Route.ComponentP
                 <tbody>
                   {release.targets.map((t) => (
                     <tr key={t.loopId} className="border-t border-rule">
-                      <td className="px-3 py-1.5"><Link to={`/o/${slug}/machines/${t.machineId}`} className="text-accent hover:underline">{t.serial}</Link></td>
+                      <td className="whitespace-nowrap px-3 py-1.5"><Link to={`/o/${slug}/machines/${t.machineId}`} className="text-accent hover:underline">{t.serial}</Link></td>
                       <td className="px-3 py-1.5 font-mono text-xs">{t.loopKey}</td>
                       <td className="px-3 py-1.5 text-right tabular-nums">{t.wave + 1}</td>
                       <td className="px-3 py-1.5" title={t.rejectReason ?? undefined}><TargetStateWord state={t.state} />{t.rejectReason ? <span className="ml-1 text-xs text-ink-faint">({t.rejectReason})</span> : null}</td>
