@@ -18,6 +18,7 @@ export const NAV_ITEMS: NavItem[] = [
   { to: "bench", label: "Tuning bench", capability: "tuning:use" },
   { to: "gain-sets", label: "Gain sets", capability: "registry:read" },
   { to: "alerts", label: "Alert e-mails", capability: "fleet:read" },
+  { to: "releases", label: "Releases", capability: "registry:read" },
   { to: "team", label: "Team", capability: "team:read" },
   { to: "developer", label: "Developer", capability: "registry:manage" },
   { to: "audit", label: "Audit log", capability: "audit:read" },

@@ -3,6 +3,8 @@
 import { sql } from "drizzle-orm";
 import { z } from "zod";
 import type { Db } from "~/.server/db/client";
+import { withdrawRetiredSigningKeys } from "~/.server/device-auth/signing-keys";
+import { advanceRelease, listActiveReleases } from "~/.server/releases/releases";
 import { SYNC_QUANTITY_JOB, SYNC_QUANTITY_QUEUE, syncQuantity } from "~/.server/billing/quantity";
 import { getStripe } from "~/.server/billing/stripe";
 import { APPLY_EVENT_JOB, APPLY_EVENT_QUEUE, applyStripeEvent } from "~/.server/billing/webhooks";
@@ -79,6 +81,36 @@ export const refreshFleetHealth = defineJob({
   },
 });
 
+/** Signing keys retired by a rotation leave the JWKS once their overlap has passed. */
+export const withdrawSigningKeys = defineJob({
+  name: "device.withdraw-signing-keys",
+  schema: z.object({}).passthrough(),
+  cron: "41 * * * *",
+  handler: async (db) => {
+    await withdrawRetiredSigningKeys(db);
+  },
+});
+
+/**
+ * Releases in their pilot or widening: evaluate the guard (hold at once when it says so),
+ * widen after the guard window, complete when every target answered. Each minute; a release
+ * is locked while it is advanced, so overlapping runs do no harm.
+ */
+export const advanceReleases = defineJob({
+  name: "release.advance",
+  schema: z.object({}).passthrough(),
+  cron: "* * * * *",
+  handler: async (db) => {
+    for (const r of await listActiveReleases(db)) {
+      try {
+        await advanceRelease(db, { organisationId: r.organisationId, releaseId: r.id });
+      } catch (error) {
+        console.error(`[release.advance] ${r.id}:`, (error as Error).message);
+      }
+    }
+  },
+});
+
 /** A verified Stripe event stored by POST /api/webhooks/stripe, applied once (app/.server/billing/webhooks.ts). */
 export const applyStripeEventJob = defineJob({
   name: APPLY_EVENT_JOB,
@@ -141,4 +173,4 @@ export const deliverAlertsJob = defineJob({
   },
 });
 
-export const JOBS = [ensureDigestPartitions, purgeDeviceJtis, refreshFleetHealth, evaluateMachine, sweepFindings, deliverAlertsJob, applyStripeEventJob, syncBillingQuantity] as const;
+export const JOBS = [ensureDigestPartitions, purgeDeviceJtis, refreshFleetHealth, evaluateMachine, sweepFindings, deliverAlertsJob, applyStripeEventJob, syncBillingQuantity, withdrawSigningKeys, advanceReleases] as const;
