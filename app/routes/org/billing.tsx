@@ -171,7 +171,8 @@ export default function Billing({ loaderData, actionData }: Route.ComponentProps
           ) : (
             <Form method="post" className="flex flex-wrap items-end gap-2">
               <input type="hidden" name="intent" value="transfer" />
-              <SelectField label="New owner" name="memberId" className="min-w-64">
+              <SelectField label="New owner" name="memberId" className="min-w-64" defaultValue="">
+                <option value="" disabled>Choose a member…</option>
                 {candidates.map((c) => <option key={c.memberId} value={c.memberId}>{c.name} ({isRole(c.role) ? ROLE_LABELS[c.role] : c.role})</option>)}
               </SelectField>
               <Button type="submit" variant="danger" disabled={busy}>Hand over ownership</Button>
