@@ -255,6 +255,8 @@ async function writeDailySnapshots(tx: Db, organisationId: string, loops: { loop
  * Open (or refresh) a `config_rejected` finding: a device refused a configuration. Called by the
  * release path; critical, since the machine keeps running its previous gains. Idempotent per
  * open finding (one per loop and kind); the evaluation job never resolves it: a person does.
+ * Its alert goes out with the next `health.sweep` (each minute), which queues the alert job for
+ * every organisation with findings waiting.
  */
 export async function openConfigRejectedFinding(db: Db, { organisationId, loopId, reason, version, now = new Date() }: { organisationId: string; loopId: string; reason: string; version: number; now?: Date }): Promise<{ id: string; opened: boolean }> {
   const [target] = (await db.execute<{ machine_id: string }>(sql`select machine_id from loop where organisation_id = ${organisationId} and id = ${loopId}::uuid`)).rows;
