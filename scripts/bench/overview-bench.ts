@@ -48,7 +48,7 @@ const ROLLUP_UPSERT = `
     gain_version = greatest(h.gain_version, excluded.gain_version)`;
 const ROLLUP_COLUMNS = "organisation_id, loop_id, hour, digests, samples, seconds, iae, sat_samples, clamp_samples, pinned_samples, err2_samples, osc_count, last_window_end, gain_version";
 
-/** The hand-written query: the same aggregates as getOverview for the whole organisation, in one statement. */
+/** The hand-written query: the same aggregates as getOverview for the whole organisation (active machines), in one statement, written plainly. */
 const HAND_WRITTEN = `
 with ranked as materialized (
   select m.id as machine_id, m.serial, l.key, l.health_score, l.health_reasons,
@@ -63,9 +63,12 @@ with ranked as materialized (
 select
   (select json_agg(x) from (select rank, count(*) as n from ranked group by rank) x) as loops,
   (select json_agg(x) from (select rank, count(*) as n from per_machine group by rank) x) as machines,
-  (select json_agg(x) from (select kind, severity, count(*) as n from finding where organisation_id = $1 and state in ('open', 'acknowledged') group by kind, severity) x) as findings,
+  (select json_agg(x) from (select f.kind, f.severity, count(*) as n from finding f join machine m on m.organisation_id = f.organisation_id and m.id = f.machine_id
+     where f.organisation_id = $1 and f.state in ('open', 'acknowledged') and m.status = 'active' group by f.kind, f.severity) x) as findings,
   (select json_agg(x) from (select machine_id, serial, rank, health_score, key, health_reasons->>0 as reason from per_machine where rank >= 1 order by rank desc, health_score asc nulls first, serial limit 20) x) as attention,
-  (select json_agg(x) from (select day, band, count(*) as n from loop_health_day where organisation_id = $1 and day >= current_date - 29 group by day, band) x) as trend`;
+  (select json_agg(x) from (select d.day, d.band, count(*) as n from loop_health_day d
+     join loop l on l.organisation_id = d.organisation_id and l.id = d.loop_id join machine m on m.organisation_id = l.organisation_id and m.id = l.machine_id
+     where d.organisation_id = $1 and d.day >= current_date - 29 and m.status = 'active' group by d.day, d.band) x) as trend`;
 
 async function main() {
   console.log(`Fresh PostgreSQL on ${PG_PORT}; ${MACHINES} machines × 6 loops × ${DAYS} days of hourly digests.`);

@@ -130,11 +130,11 @@ export async function evaluateMachineHealth(db: Db, { organisationId, machineId,
         if (change === "escalated") result.escalated += 1;
         if (change === "resolved") result.resolved += 1;
       }
-      await tx.execute(sql`
-        insert into loop_health (organisation_id, loop_id, figures, evaluated_at)
-        values (${organisationId}, ${e.loop.id}::uuid, ${JSON.stringify(e.figures)}::jsonb, ${now.toISOString()}::timestamptz)
-        on conflict (organisation_id, loop_id) do update set figures = excluded.figures, evaluated_at = excluded.evaluated_at`);
     }
+    await tx.execute(sql`
+      insert into loop_health (organisation_id, loop_id, figures, evaluated_at)
+      values ${sql.join(evaluations.map((e) => sql`(${organisationId}, ${e.loop.id}::uuid, ${JSON.stringify(e.figures)}::jsonb, ${now.toISOString()}::timestamptz)`), sql`, `)}
+      on conflict (organisation_id, loop_id) do update set figures = excluded.figures, evaluated_at = excluded.evaluated_at`);
     await writeDailySnapshots(tx, organisationId, evaluations.map((e) => ({ loopId: e.loop.id, thresholds: e.loop.thresholds, rows: e.rows })), now);
   });
   result.alertsPending = result.opened + result.escalated > 0;
@@ -200,6 +200,14 @@ const dayOf = (ms: number) => new Date(ms).toISOString().slice(0, 10);
  */
 async function writeDailySnapshots(tx: Db, organisationId: string, loops: { loopId: string; thresholds: HealthThresholds; rows: HourRow[] }[], now: Date) {
   const firstDay = Date.parse(dayOf(now.getTime() - (TREND_DAYS - 1) * DAY_MS));
+  // Only days whose band or score changed are written (usually today's alone).
+  const stored = new Map<string, string>();
+  if (loops.length > 0) {
+    const rows = await tx.execute<{ loop_id: string; day: string; band: string; score: number | null }>(sql`
+      select loop_id, to_char(day, 'YYYY-MM-DD') as day, band, score from loop_health_day
+      where organisation_id = ${organisationId} and loop_id = any(array[${sql.join(loops.map((l) => sql`${l.loopId}::uuid`), sql`, `)}]) and day >= ${dayOf(firstDay)}::date`);
+    for (const r of rows.rows) stored.set(`${r.loop_id} ${r.day}`, `${r.band} ${r.score ?? ""}`);
+  }
   const values: ReturnType<typeof sql>[] = [];
   for (const l of loops) {
     const days = new Map<string, { samples: number; seconds: number; sat: number; clamp: number; err2: number; osc: number }>();
@@ -233,6 +241,7 @@ async function writeDailySnapshots(tx: Db, organisationId: string, loops: { loop
         score = scoreHealthSignals(signals, l.thresholds).score;
         band = bandForScore(score);
       }
+      if (stored.get(`${l.loopId} ${key}`) === `${band} ${score ?? ""}`) continue;
       values.push(sql`(${organisationId}, ${l.loopId}::uuid, ${key}::date, ${band}, ${score}::int)`);
     }
   }
@@ -246,6 +255,8 @@ async function writeDailySnapshots(tx: Db, organisationId: string, loops: { loop
  * Open (or refresh) a `config_rejected` finding: a device refused a configuration. Called by the
  * release path; critical, since the machine keeps running its previous gains. Idempotent per
  * open finding (one per loop and kind); the evaluation job never resolves it: a person does.
+ * Its alert goes out with the next `health.sweep` (each minute), which queues the alert job for
+ * every organisation with findings waiting.
  */
 export async function openConfigRejectedFinding(db: Db, { organisationId, loopId, reason, version, now = new Date() }: { organisationId: string; loopId: string; reason: string; version: number; now?: Date }): Promise<{ id: string; opened: boolean }> {
   const [target] = (await db.execute<{ machine_id: string }>(sql`select machine_id from loop where organisation_id = ${organisationId} and id = ${loopId}::uuid`)).rows;

@@ -35,7 +35,8 @@ export const ATTENTION_LIMIT = 20;
 export async function getOverview(db: Db, scope: SiteScope, query: OverviewQuery): Promise<Overview> {
   const where = filters(scope, query);
   const since = new Date(Date.now() - (TREND_DAYS - 1) * 86_400_000).toISOString().slice(0, 10);
-  // One round trip: the loop ranks once (CTE), then each aggregate as a JSON column.
+  // One round trip: the loops in scope and filter ranked once (CTE); findings and snapshots are
+  // counted for those loops and machines only, then each aggregate comes back as a JSON column.
   const [row] = (
     await db.execute<{ loops: { rank: number; n: number }[] | null; machines: { rank: number; n: number }[] | null; findings: { kind: FindingKind; severity: FindingSeverity; n: number }[] | null; attention: { machineId: string; serial: string; rank: number; score: number | null; reason: string | null; loopKey: string | null }[] | null; trend: { day: string; band: HealthBand; n: number }[] | null }>(sql`
       with ranked as materialized (
@@ -53,8 +54,8 @@ export async function getOverview(db: Db, scope: SiteScope, query: OverviewQuery
         (select json_agg(x) from (select rank, count(*)::int as n from per_machine group by rank) x) as machines,
         (select json_agg(x) from (
           select f.kind, f.severity, count(*)::int as n
-          from finding f join ${MACHINES} on m.organisation_id = f.organisation_id and m.id = f.machine_id
-          where f.organisation_id = ${scope.organisationId} and f.state in ('open', 'acknowledged') and ${where}
+          from finding f join per_machine p on p.machine_id = f.machine_id
+          where f.organisation_id = ${scope.organisationId} and f.state in ('open', 'acknowledged')
           group by f.kind, f.severity) x) as findings,
         (select json_agg(x) from (
           select machine_id as "machineId", serial, rank, health_score as score, key as "loopKey",
@@ -64,10 +65,8 @@ export async function getOverview(db: Db, scope: SiteScope, query: OverviewQuery
           order by case rank when ${BAND_RANK.act}::int then 0 when ${BAND_RANK.watch}::int then 1 else 2 end, health_score asc nulls first, serial limit ${ATTENTION_LIMIT}) x) as attention,
         (select json_agg(x) from (
           select to_char(d.day, 'YYYY-MM-DD') as day, d.band, count(*)::int as n
-          from loop_health_day d
-          join loop l on l.organisation_id = d.organisation_id and l.id = d.loop_id
-          join ${MACHINES} on m.organisation_id = l.organisation_id and m.id = l.machine_id
-          where d.organisation_id = ${scope.organisationId} and d.day >= ${since}::date and ${where}
+          from loop_health_day d join ranked r on r.loop_id = d.loop_id
+          where d.organisation_id = ${scope.organisationId} and d.day >= ${since}::date
           group by d.day, d.band) x) as trend`)
   ).rows;
 

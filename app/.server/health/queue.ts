@@ -12,8 +12,12 @@ export const DELIVER_ALERTS_JOB = "health.deliver-alerts";
 /** Queues whose jobs carry a singleton key: one waiting job per key (pg-boss `stately`). */
 export const STATELY_QUEUES = [EVALUATE_MACHINE_JOB, DELIVER_ALERTS_JOB] as const;
 
-/** A machine posting continuously is evaluated at most this often. */
-export const EVALUATE_MIN_INTERVAL_MS = 10_000;
+/**
+ * A machine posting continuously is evaluated at most this often: digests are minute windows, and
+ * one worker evaluates about ten machines a second (scripts/bench/overview-bench.ts), so a fleet
+ * of 500 machines posting without pause is judged about once a minute each.
+ */
+export const EVALUATE_MIN_INTERVAL_MS = 60_000;
 /** Seconds an evaluation waits after it is asked for, so a burst of posts costs one. */
 export const EVALUATE_DELAY_S = 3;
 /** Seconds the alert job waits after a finding opens, so a burst goes out as one summary. */

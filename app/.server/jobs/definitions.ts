@@ -138,6 +138,7 @@ export const syncBillingQuantity = defineJob({
 /**
  * Findings that need the clock rather than a digest: loops gone silent without a silent finding
  * yet, and open findings counting down to their auto-resolve. Each such machine is evaluated.
+ * Then any organisation with findings still waiting for their alert gets its alert job.
  */
 export const sweepFindings = defineJob({
   name: "health.sweep",
@@ -156,6 +157,10 @@ export const sweepFindings = defineJob({
       )
       limit 1000`);
     for (const row of rows.rows) await evaluateAndAlert(db, row.organisation_id, row.id);
+    // Findings opened outside an evaluation (config_rejected, by the release path) or whose alert
+    // job was lost: queue their organisation's alert job (one waits per organisation at most).
+    const pending = await db.execute<{ organisation_id: string }>(sql`select distinct organisation_id from finding where alert_pending = 1 and state = 'open'`);
+    for (const row of pending.rows) await healthJobHooks.alertsPending(row.organisation_id);
   },
 });
 
