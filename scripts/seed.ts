@@ -3,7 +3,17 @@ import { sql } from "drizzle-orm";
 import { closeDb, getDb } from "~/.server/db/client";
 import { organisation } from "~/.server/db/schema";
 import { addMember, assignSite, createCustomer, createMachine, createMachineModel, createOrganisation, createSite, createUser } from "../tests/factories";
+import { getStripe } from "~/.server/billing/stripe";
+import { seedDemoBilling } from "./seed/billing";
 import { DEMO_FLEETS, DEMO_ORGANISATIONS, DEMO_PASSWORD } from "./seed/demo-data";
+import { seedGainSets } from "./seed/gain-sets";
+import { seedDemoRelease } from "./seed/demo-release";
+
+/** One demo release per organisation with a fleet (scripts/seed/demo-release.ts). */
+const DEMO_RELEASES: Record<string, { templateKey: string; author: string; approver: string }> = {
+  corvid: { templateKey: "screw_speed", author: "engineer@corvid.example", approver: "engineer2@corvid.example" },
+  pellworth: { templateKey: "flow", author: "engineer@pellworth.example", approver: "owner@pellworth.example" },
+};
 
 export async function seedDemo(): Promise<boolean> {
   const db = getDb();
@@ -13,8 +23,10 @@ export async function seedDemo(): Promise<boolean> {
     for (const demo of DEMO_ORGANISATIONS) {
       const org = await createOrganisation(tx, { name: demo.name, slug: demo.slug });
       const members = new Map<string, string>();
+      const userIds = new Map<string, string>();
       for (const person of demo.people) {
         const created = await createUser(tx, { email: person.email, name: person.name, password: DEMO_PASSWORD });
+        userIds.set(person.email, created.id);
         const membership = await addMember(tx, { organisationId: org.id, userId: created.id, role: person.role });
         members.set(person.email, membership.id);
       }
@@ -45,6 +57,11 @@ export async function seedDemo(): Promise<boolean> {
             });
           }
         }
+        await seedGainSets(tx, { organisationId: org.id, slug: demo.slug, templates: model.templates, users: userIds });
+        const release = DEMO_RELEASES[demo.slug];
+        if (release) {
+          await seedDemoRelease(tx, { organisationId: org.id, modelId: model.id, templateKey: release.templateKey, authorId: userIds.get(release.author)!, approverId: userIds.get(release.approver)! });
+        }
       }
       for (const assignment of demo.siteManagers) {
         for (const siteId of sitesByCustomer.get(assignment.customer) ?? []) {
@@ -59,5 +76,8 @@ export async function seedDemo(): Promise<boolean> {
 if (import.meta.url === `file://${process.argv[1]}`) {
   const seeded = await seedDemo();
   console.log(seeded ? "Demo data seeded." : "Database already has data; demo seed skipped.");
+  // Every start: the demo organisations' subscriptions on the local Stripe (idempotent).
+  const billed = await seedDemoBilling(getDb(), getStripe(), DEMO_ORGANISATIONS.map((o) => o.slug));
+  console.log(`Demo billing on the local Stripe: ${billed.join(", ") || "none"}.`);
   await closeDb();
 }

@@ -41,6 +41,9 @@ shutdown() {
 }
 trap shutdown INT TERM EXIT
 
+# The local Stripe first: the seed puts the demo organisations' subscriptions on it.
+start_child stripe node_modules/.bin/tsx fakes/stripe/server.ts
+wait_for_http "$STRIPE_BASE_URL/" 60
 npx tsx scripts/migrate.ts
 npx tsx scripts/seed.ts
 echo "Building the app…"
@@ -48,10 +51,8 @@ mkdir -p data
 npx react-router build >data/build.log 2>&1 || { cat data/build.log >&2; exit 1; }
 
 start_child mail node_modules/.bin/tsx fakes/resend/server.ts
-start_child stripe node_modules/.bin/tsx fakes/stripe/server.ts
 start_child app node scripts/serve.js build/server/index.js
 wait_for_http "http://127.0.0.1:$RESEND_FAKE_PORT/api/messages" 60
-wait_for_http "$STRIPE_BASE_URL/" 60
 wait_for_http "http://$HOST:$PORT/" 120
 for extra in scripts/worker.ts scripts/simulate.ts; do
   if [[ -f "$extra" ]]; then start_child "$(basename "$extra" .ts)" node_modules/.bin/tsx "$extra"; fi

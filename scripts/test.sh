@@ -56,19 +56,22 @@ rm -rf "$DATA_DIR" "$RESEND_FAKE_DIR" "$STRIPE_FAKE_DIR" "$REPORTS"
 mkdir -p "$REPORTS"
 echo "Starting a fresh test PostgreSQL on 127.0.0.1:$TEST_PG_PORT…"
 pg_ensure_running "$DATA_DIR" "$TEST_PG_PORT" off || exit 1
+# The local Stripe before the seed, which subscribes the demo organisations on it.
+start_child stripe node_modules/.bin/tsx fakes/stripe/server.ts
+wait_for_http "$STRIPE_BASE_URL/" 60 || exit 1
 node_modules/.bin/tsx scripts/migrate.ts || exit 1
 node_modules/.bin/tsx scripts/seed.ts || exit 1
 
 start_child mail node_modules/.bin/tsx fakes/resend/server.ts
 wait_for_http "$RESEND_BASE_URL/api/messages" 60 || exit 1
-start_child stripe node_modules/.bin/tsx fakes/stripe/server.ts
-wait_for_http "$STRIPE_BASE_URL/" 60 || exit 1
 
 echo "Building the app…"
 node_modules/.bin/react-router build >"$REPORTS/build.log" 2>&1 || { cat "$REPORTS/build.log"; exit 1; }
 start_child app env NODE_ENV=production PORT="$TEST_APP_PORT" HOST=127.0.0.1 node scripts/serve.js "$FLYBALL_BUILD_DIR/server/index.js"
 wait_for_http "http://127.0.0.1:$TEST_APP_PORT/" 120 || exit 1
 export APP_URL="http://127.0.0.1:$TEST_APP_PORT"
+# The job worker: Stripe's webhooks and the billing quantity are applied by jobs.
+start_child worker node_modules/.bin/tsx scripts/worker.ts
 
 echo "Running Vitest…"
 node_modules/.bin/vitest run --reporter=default --reporter=json --outputFile.json="$REPORTS/vitest.json" "$@"

@@ -3,7 +3,7 @@
 import { hashPassword } from "better-auth/crypto";
 import type { Db } from "~/.server/db/client";
 import { createSigningKey } from "~/.server/device-auth/signing-keys";
-import { account, customer, invitation, loopTemplate, machineModel, member, organisation, site, siteAssignment, user } from "~/.server/db/schema";
+import { account, billingAccount, customer, invitation, loopTemplate, machineModel, member, organisation, site, siteAssignment, user } from "~/.server/db/schema";
 import type { GainEnvelope, HealthThresholds, ReferenceModel, StoredGains } from "~/.server/db/schema";
 import { registerMachine } from "~/.server/fleet/machines";
 import type { Role } from "~/lib/access/capabilities";
@@ -175,4 +175,14 @@ export async function createInvitation(
   const id = crypto.randomUUID();
   await db.insert(invitation).values({ id, organizationId: organisationId, inviterId, email: email.toLowerCase(), role, expiresAt });
   return { id, organisationId, email: email.toLowerCase(), role, expiresAt };
+}
+
+/**
+ * Mark an organisation as paying (an active per-machine subscription) without Stripe, for tests
+ * about something else that grow a fleet past the trial's 5 machines. Billing's own tests go
+ * through the local Stripe instead (tests/integration/billing*.test.ts).
+ */
+export async function markSubscribed(db: Db, { organisationId }: { organisationId: string }) {
+  const values = { plan: "per_machine", status: "active", trialEndsAt: new Date(), stripeSubscriptionId: `sub_test_${organisationId.slice(0, 8)}` };
+  await db.insert(billingAccount).values({ organisationId, ...values }).onConflictDoUpdate({ target: billingAccount.organisationId, set: values });
 }

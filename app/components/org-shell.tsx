@@ -16,9 +16,12 @@ export const NAV_ITEMS: NavItem[] = [
   { to: "customers", label: "Customers & sites", capability: "registry:manage" },
   { to: "models", label: "Models & loops", capability: "registry:manage" },
   { to: "bench", label: "Tuning bench", capability: "tuning:use" },
+  { to: "gain-sets", label: "Gain sets", capability: "registry:read" },
   { to: "alerts", label: "Alert e-mails", capability: "fleet:read" },
+  { to: "releases", label: "Releases", capability: "registry:read" },
   { to: "team", label: "Team", capability: "team:read" },
   { to: "developer", label: "Developer", capability: "registry:manage" },
+  { to: "audit", label: "Audit log", capability: "audit:read" },
   { to: "billing", label: "Billing", capability: "billing:manage" },
 ];
 

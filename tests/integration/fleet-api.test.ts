@@ -4,7 +4,7 @@ import { and, asc, eq, ne, sql } from "drizzle-orm";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { auditEvent, customer, device, enrolmentCode, loop, machine, organisation, site } from "~/.server/db/schema";
 import { createDeviceIdentity, DeviceClient, sampleDigest } from "../../scripts/simulator/device-client";
-import { addMember, assignSite, createTeam, createTestFleet, createUser, uniqueSuffix } from "../factories";
+import { addMember, assignSite, createTeam, createTestFleet, createUser, markSubscribed, uniqueSuffix } from "../factories";
 import { closeDb, db } from "../support/db";
 import { APP_URL, get, postForm, postJson, signIn, type Session } from "../support/http";
 
@@ -20,6 +20,8 @@ beforeAll(async () => {
   a = await createTeam(db(), ["owner", "site_manager", "viewer"]);
   b = await createTeam(db(), ["owner"]);
   fleetA = await createTestFleet(db(), { organisationId: a.organisation.id, machinesPerSite: 3 });
+  // Six machines: past the trial's five, so A pays (billing is tested in billing*.test.ts).
+  await markSubscribed(db(), { organisationId: a.organisation.id });
   fleetB = await createTestFleet(db(), { organisationId: b.organisation.id, machinesPerSite: 1 });
   await assignSite(db(), { organisationId: a.organisation.id, memberId: a.people[1].memberId, siteId: fleetA.sites[0].id });
   ownerA = await signIn(a.people[0].email);

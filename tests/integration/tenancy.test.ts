@@ -4,7 +4,7 @@ import { and, asc, eq, inArray } from "drizzle-orm";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import type { RouteConfigEntry } from "@react-router/dev/routes";
 import routes from "~/routes";
-import { apiToken, auditEvent, finding, invitation, loop, machine, machineModel, member, organisation, site, user } from "~/.server/db/schema";
+import { apiToken, auditEvent, finding, gainSet, invitation, loop, machine, machineModel, member, organisation, release, site, user } from "~/.server/db/schema";
 import { get, postForm, signIn, type Session } from "../support/http";
 import { closeDb, db } from "../support/db";
 import { uniqueSuffix } from "../factories";
@@ -37,6 +37,30 @@ async function firstMachineId(slug: string): Promise<string> {
   return row.id;
 }
 
+async function firstGainSetId(slug: string): Promise<string> {
+  const [row] = await db()
+    .select({ id: gainSet.id })
+    .from(gainSet)
+    .innerJoin(organisation, eq(organisation.id, gainSet.organisationId))
+    .where(eq(organisation.slug, slug))
+    .orderBy(asc(gainSet.createdAt), asc(gainSet.version))
+    .limit(1);
+  if (!row) throw new Error(`the demo seed has no gain set in ${slug}`);
+  return row.id;
+}
+
+async function firstReleaseId(slug: string): Promise<string> {
+  const [row] = await db()
+    .select({ id: release.id })
+    .from(release)
+    .innerJoin(organisation, eq(organisation.id, release.organisationId))
+    .where(eq(organisation.slug, slug))
+    .orderBy(asc(release.createdAt))
+    .limit(1);
+  if (!row) throw new Error(`the demo seed has no release in ${slug}`);
+  return row.id;
+}
+
 /**
  * Where a page's params get a real id of the organisation from the seeded demo, by the param
  * and the path segment before it. A page with a param this table cannot fill fails loudly:
@@ -45,9 +69,11 @@ async function firstMachineId(slug: string): Promise<string> {
  */
 const REAL_IDS: Record<string, (slug: string) => Promise<string>> = {
   "machines/:id": firstMachineId,
+  "gain-sets/:id": firstGainSetId,
   "findings/:id": firstFindingId,
   "loop/:id": async (slug) => (await firstLoopOf(await firstMachineId(slug))).id,
   "site/:id": async (slug) => (await one(db().select({ id: machine.siteId }).from(machine).where(eq(machine.id, await firstMachineId(slug))))).id,
+  "releases/:id": firstReleaseId,
 };
 
 async function one<T>(rows: Promise<T[]>): Promise<T> {

@@ -1,3 +1,4 @@
+import { sql } from "drizzle-orm";
 import type { Db } from "~/.server/db/client";
 import { auditEvent } from "~/.server/db/schema";
 
@@ -25,5 +26,7 @@ export async function recordAudit(db: Db, entry: AuditEntry): Promise<void> {
     detail: entry.detail ?? {},
     before: entry.before ?? null,
     after: entry.after ?? null,
+    // The statement's own time, so several events in one transaction keep their order.
+    createdAt: sql`clock_timestamp()`,
   });
 }

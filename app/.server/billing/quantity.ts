@@ -3,6 +3,7 @@
 // organisation (a stately queue with the organisation as singleton key) and sends the count
 // with an idempotency key naming the change, so a retried job never applies a change twice.
 import { and, eq, lt, sql } from "drizzle-orm";
+import StripeSdk from "stripe";
 import type Stripe from "stripe";
 import type { Db } from "~/.server/db/client";
 import { billingAccount } from "~/.server/db/schema";
@@ -36,7 +37,17 @@ export async function syncQuantity(db: Db, stripe: Stripe, { organisationId }: {
     return { quantity: null };
   }
   const quantity = Math.max(1, await countActiveMachines(db, { organisationId }));
-  const subscription = await stripe.subscriptions.retrieve(account.stripeSubscriptionId);
+  let subscription: Stripe.Subscription;
+  try {
+    subscription = await stripe.subscriptions.retrieve(account.stripeSubscriptionId);
+  } catch (error) {
+    // A subscription Stripe does not know (deleted there, or another account's): nothing to bill.
+    if (error instanceof StripeSdk.errors.StripeInvalidRequestError && error.code === "resource_missing") {
+      await markSynced();
+      return { quantity: null };
+    }
+    throw error;
+  }
   const item = subscription.items.data[0];
   if (!item || subscription.status === "canceled") {
     await markSynced();

@@ -57,6 +57,8 @@ export async function enrolDevice(db: Db, input: z.infer<typeof EnrolRequestSche
       targetType: "machine",
       targetId: machineId,
       detail: { serial: target.serial, deviceId: created.id, alg, thumbprint, replaced: replaced.map((r) => r.id), firmware: input.firmware ?? null },
+      before: { activeDevices: replaced.map((r) => r.id) },
+      after: { activeDevices: [created.id], alg, thumbprint, firmware: input.firmware ?? null },
     });
     return { machineId, deviceId: created.id, alg: alg as "EdDSA" | "ES256", loopKeys: loops.map((l) => l.key), jwksUrl: `/api/v1/o/${target.slug}/jwks.json` };
   });

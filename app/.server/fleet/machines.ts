@@ -210,7 +210,7 @@ export async function registerMachine(db: Db, { organisationId, actor, input }: 
     await db.insert(loop).values(templates.map((t) => ({ organisationId, machineId: created.id, templateId: t.id, key: t.key, gains: t.defaultGains })));
   }
   const code = await issueEnrolmentCode(db, { organisationId, machineId: created.id, actor });
-  await recordAudit(db, { organisationId, actor, action: "machine.registered", targetType: "machine", targetId: created.id, detail: { serial: created.serial, modelId: input.modelId, siteId: input.siteId } });
+  await recordAudit(db, { organisationId, actor, action: "machine.registered", targetType: "machine", targetId: created.id, detail: { serial: created.serial, modelId: input.modelId, siteId: input.siteId }, after: { serial: created.serial, modelId: input.modelId, siteId: input.siteId, status: "active" } });
   return { machine: created, enrolmentCode: code };
 }
 
@@ -239,7 +239,7 @@ export async function revokeMachineDevice(db: Db, scope: SiteScope, { machineId,
     .set({ status: "revoked", revokedAt: new Date() })
     .where(and(eq(device.organisationId, scope.organisationId), eq(device.machineId, machineId), eq(device.status, "active")))
     .returning({ id: device.id });
-  await recordAudit(db, { organisationId: scope.organisationId, actor, action: "machine.device_revoked", targetType: "machine", targetId: machineId, detail: { serial: target.serial, deviceIds: revoked.map((d) => d.id) } });
+  await recordAudit(db, { organisationId: scope.organisationId, actor, action: "machine.device_revoked", targetType: "machine", targetId: machineId, detail: { serial: target.serial, deviceIds: revoked.map((d) => d.id) }, before: { activeDevices: revoked.map((d) => d.id) }, after: { activeDevices: [] } });
   return { revoked: revoked.length };
 }
 
@@ -250,6 +250,6 @@ export async function decommissionMachine(db: Db, scope: SiteScope, { machineId,
   await db.update(machine).set({ status: "decommissioned", decommissionedAt: now }).where(and(eq(machine.organisationId, scope.organisationId), eq(machine.id, machineId)));
   await db.update(device).set({ status: "revoked", revokedAt: now }).where(and(eq(device.organisationId, scope.organisationId), eq(device.machineId, machineId), eq(device.status, "active")));
   await db.update(enrolmentCode).set({ supersededAt: now }).where(and(eq(enrolmentCode.organisationId, scope.organisationId), eq(enrolmentCode.machineId, machineId), isNull(enrolmentCode.usedAt), isNull(enrolmentCode.supersededAt)));
-  await recordAudit(db, { organisationId: scope.organisationId, actor, action: "machine.decommissioned", targetType: "machine", targetId: machineId, detail: { serial: target.serial } });
+  await recordAudit(db, { organisationId: scope.organisationId, actor, action: "machine.decommissioned", targetType: "machine", targetId: machineId, detail: { serial: target.serial }, before: { status: "active" }, after: { status: "decommissioned" } });
   return { changed: true };
 }

@@ -63,7 +63,7 @@ export async function inviteMember(db: Db, actor: Membership, input: z.infer<typ
   );
   if (!result.ok) throw new DomainError("refused", String(result.body.message ?? "The invitation could not be created."));
   const invitationId = String(result.body.id);
-  await recordAudit(db, { organisationId: actor.organisation.id, actor: actor.user.id, action: "invitation.created", targetType: "invitation", targetId: invitationId, detail: { email: input.email, role: input.role } });
+  await recordAudit(db, { organisationId: actor.organisation.id, actor: actor.user.id, action: "invitation.created", targetType: "invitation", targetId: invitationId, detail: { email: input.email, role: input.role }, after: { email: input.email, role: input.role, status: "pending" } });
   return { invitationId, delivery: await deliverInvitation(db, actor, invitationId, input.email, input.role) };
 }
 
@@ -88,7 +88,7 @@ export async function resendInvitation(db: Db, actor: Membership, invitationId: 
 export async function revokeInvitation(db: Db, actor: Membership, invitationId: string) {
   const row = await requirePendingInvitation(db, actor.organisation.id, invitationId);
   await db.update(invitation).set({ status: "canceled" }).where(and(eq(invitation.organizationId, actor.organisation.id), eq(invitation.id, row.id)));
-  await recordAudit(db, { organisationId: actor.organisation.id, actor: actor.user.id, action: "invitation.revoked", targetType: "invitation", targetId: row.id, detail: { email: row.email } });
+  await recordAudit(db, { organisationId: actor.organisation.id, actor: actor.user.id, action: "invitation.revoked", targetType: "invitation", targetId: row.id, detail: { email: row.email }, before: { email: row.email, status: "pending" }, after: { email: row.email, status: "canceled" } });
 }
 
 async function requireMember(db: Db, organisationId: string, memberId: string) {
@@ -120,7 +120,7 @@ export async function changeMemberRole(db: Db, actor: Membership, input: z.infer
       throw new DomainError("conflict", "The organisation needs at least one owner. Make someone else owner first.", { status: 409 });
     }
     await tx.update(member).set({ role: input.role }).where(and(eq(member.organizationId, actor.organisation.id), eq(member.id, target.id)));
-    await recordAudit(tx, { organisationId: actor.organisation.id, actor: actor.user.id, action: "member.role_changed", targetType: "member", targetId: target.id, detail: { from: target.role, to: input.role } });
+    await recordAudit(tx, { organisationId: actor.organisation.id, actor: actor.user.id, action: "member.role_changed", targetType: "member", targetId: target.id, detail: { from: target.role, to: input.role }, before: { userId: target.userId, role: target.role }, after: { userId: target.userId, role: input.role } });
   });
 }
 
@@ -133,7 +133,7 @@ export async function removeMember(db: Db, actor: Membership, memberId: string) 
       throw new DomainError("conflict", "The last owner cannot leave. Make someone else owner first.", { status: 409 });
     }
     await tx.delete(member).where(and(eq(member.organizationId, actor.organisation.id), eq(member.id, target.id)));
-    await recordAudit(tx, { organisationId: actor.organisation.id, actor: actor.user.id, action: leaving ? "member.left" : "member.removed", targetType: "member", targetId: target.id, detail: { role: target.role } });
+    await recordAudit(tx, { organisationId: actor.organisation.id, actor: actor.user.id, action: leaving ? "member.left" : "member.removed", targetType: "member", targetId: target.id, detail: { role: target.role }, before: { userId: target.userId, role: target.role } });
   });
 }
 
@@ -153,6 +153,6 @@ export async function acceptInvitation(invitationId: string, headers: Headers) {
   if (!result.ok) throw new DomainError("refused", String(result.body.message ?? "The invitation could not be accepted."));
   const accepted = result.body as { member?: { id: string; organizationId: string; userId: string } };
   if (accepted.member) {
-    await recordAudit(getDb(), { organisationId: accepted.member.organizationId, actor: accepted.member.userId, action: "invitation.accepted", targetType: "member", targetId: accepted.member.id });
+    await recordAudit(getDb(), { organisationId: accepted.member.organizationId, actor: accepted.member.userId, action: "invitation.accepted", targetType: "member", targetId: accepted.member.id, after: { userId: accepted.member.userId, role: (accepted.member as { role?: string }).role ?? null } });
   }
 }

@@ -1,5 +1,5 @@
-import { useState } from "react";
-import { useFetcher } from "react-router";
+import { useEffect, useState } from "react";
+import { Link, useFetcher, useNavigate, useParams } from "react-router";
 import type { LoopScore } from "~/lib/compute/bench";
 import { toParallelGains, type FopdtModel, type PidGains } from "~/lib/control";
 import { Button } from "~/components/ui/button";
@@ -17,7 +17,7 @@ export type BenchTemplate = {
   drafts: number;
 };
 
-type SaveResult = { ok: true; version: number; templateKey: string } | { ok: false; message: string };
+type SaveResult = { ok: true; id: string; version: number; templateKey: string } | { ok: false; message: string };
 
 /** The gains outside a template's safety envelope, in words (empty when they fit). */
 function envelopeProblems(template: BenchTemplate, gains: PidGains): string[] {
@@ -47,6 +47,13 @@ export function SaveDraft({
   const template = templates.find((t) => t.id === templateId);
   const problems = template && gains ? envelopeProblems(template, gains) : [];
   const busy = fetcher.state !== "idle";
+  const navigate = useNavigate();
+  const { slug } = useParams();
+  const saved = fetcher.state === "idle" && fetcher.data?.ok ? fetcher.data : null;
+  // A saved draft is proposed from its own page: go there.
+  useEffect(() => {
+    if (saved) navigate(`/o/${slug}/gain-sets/${saved.id}`);
+  }, [saved, slug, navigate]);
 
   if (templates.length === 0) {
     return <p className="text-xs text-ink-faint">Add a machine model with loop templates to save these gains as a draft gain set.</p>;
@@ -120,7 +127,11 @@ export function SaveDraft({
         </p>
       ) : null}
       {problems.length ? <Notice tone="error" title="Outside the loop's safety envelope">{problems.join("; ")}.</Notice> : null}
-      {result?.ok ? <Notice tone="success" title={`Saved draft v${result.version} for ${result.templateKey}`} /> : null}
+      {result?.ok ? (
+        <Notice tone="success" title={`Saved draft v${result.version} for ${result.templateKey}`}>
+          <Link to={`/o/${slug}/gain-sets/${result.id}`} className="link-in-text">Open it to propose it</Link>
+        </Notice>
+      ) : null}
       {result && !result.ok ? <Notice tone="error" title="Not saved">{result.message}</Notice> : null}
     </div>
   );

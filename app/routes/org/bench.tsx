@@ -14,7 +14,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   return { templates: await listBenchTemplates(getDb(), { organisationId: membership.organisation.id }) };
 }
 
-export type SaveDraftResult = { ok: true; version: number; templateKey: string } | { ok: false; message: string; field?: string };
+export type SaveDraftResult = { ok: true; id: string; version: number; templateKey: string } | { ok: false; message: string; field?: string };
 
 // Saving a draft: the form carries one field, `draft`, holding the JSON of DraftGainSetSchema.
 export async function action({ request, params }: Route.ActionArgs) {
@@ -33,7 +33,7 @@ export async function action({ request, params }: Route.ActionArgs) {
   }
   try {
     const saved = await saveDraftGainSet(getDb(), { organisationId: membership.organisation.id, actor: membership.user.id, input: parsed.data });
-    return data<SaveDraftResult>({ ok: true, version: saved.version, templateKey: saved.templateKey });
+    return data<SaveDraftResult>({ ok: true, id: saved.id, version: saved.version, templateKey: saved.templateKey });
   } catch (error) {
     return actionFailure<SaveDraftResult>(error);
   }
