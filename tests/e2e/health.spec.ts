@@ -28,7 +28,7 @@ for (const size of [{ name: "desktop", width: 1280, height: 900 }, { name: "phon
     await expect(attention).toContainText(demo.attentionSerial);
     const trend = page.locator('section[aria-labelledby="trend-heading"]');
     await expect(trend.locator("svg rect").first()).toBeVisible();
-    await expect(trend.getByText("Loops by health, per day")).toBeVisible();
+    await expect(trend.locator("figcaption").getByText("Loops by health, per day")).toBeVisible();
     // The tooltip names the day and the exact counts.
     const plot = trend.locator('svg[aria-label^="Loops by health"]');
     await plot.scrollIntoViewIfNeeded();

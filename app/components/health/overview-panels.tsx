@@ -7,6 +7,7 @@ import type { HealthBand } from "~/lib/health";
 import { FINDING_KINDS, FINDING_SEVERITIES, type Overview } from "~/lib/health/api-types";
 
 const BANDS: HealthBand[] = ["act", "watch", "silent", "steady"];
+const SILENT_SHOWN = 6;
 
 const SEVERITY_ICON = { critical: "■", warning: "▲", info: "i" } as const;
 const SEVERITY_CLASS = { critical: "text-act", warning: "text-watch", info: "text-ink-soft" } as const;
@@ -23,7 +24,8 @@ export function SeverityBadge({ severity }: { severity: keyof typeof SEVERITY_IC
 export function OverviewPanels({ overview, base, search }: { overview: Overview; base: string; search: string }) {
   const { machines, loops, openFindings, attention, trend } = overview;
   const needing = attention.filter((a) => a.band !== "silent");
-  const silent = attention.filter((a) => a.band === "silent");
+  // A handful of silent machines here; the machines page lists them all.
+  const silent = attention.filter((a) => a.band === "silent").slice(0, SILENT_SHOWN);
   const openTotal = Object.values(openFindings.bySeverity).reduce((a, b) => a + (b ?? 0), 0);
   const findingsLink = (extra: Record<string, string>) => {
     const params = new URLSearchParams(search);
