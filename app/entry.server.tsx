@@ -1,6 +1,6 @@
 // Server rendering of documents, as React Router's default, plus the document's security
 // policy: scripts run only with this response's nonce (no inline script without it), nothing
-// may frame the app, and forms post only to ourselves (or redirect to the payment pages). The other security headers, and the
+// may frame the app, and forms post only to ourselves. The other security headers, and the
 // policy of every answer that is not a document, are set by scripts/serve.js.
 import { randomBytes } from "node:crypto";
 import { PassThrough } from "node:stream";
@@ -9,7 +9,6 @@ import { isbot } from "isbot";
 import type { RenderToPipeableStreamOptions } from "react-dom/server";
 import { renderToPipeableStream } from "react-dom/server";
 import { ServerRouter, type EntryContext } from "react-router";
-import { checkoutOrigins } from "~/.server/billing/stripe";
 import { NonceContext } from "~/lib/web/nonce";
 
 export const streamTimeout = 5_000;
@@ -25,8 +24,7 @@ function contentSecurityPolicy(nonce: string): string {
     "connect-src 'self'",
     "object-src 'none'",
     "base-uri 'none'",
-    // The billing page's forms answer with a redirect to the payment service's hosted pages.
-    `form-action 'self' ${checkoutOrigins().join(" ")}`,
+    "form-action 'self'",
     "frame-ancestors 'none'",
   ].join("; ");
 }

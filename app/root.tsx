@@ -1,3 +1,5 @@
+import { QueryClient, QueryClientProvider } from "@tanstack/react-query";
+import { useState } from "react";
 import { Links, Meta, Outlet, Scripts, ScrollRestoration } from "react-router";
 import { describeRouteError } from "~/components/route-error";
 import { useNonce } from "~/lib/web/nonce";
@@ -25,8 +27,15 @@ export function Layout({ children }: { children: React.ReactNode }) {
   );
 }
 
+// One TanStack Query client for the whole app: pages seed it with their loader's data
+// (`initialData`) and refresh in the background through the management API.
 export default function App() {
-  return <Outlet />;
+  const [client] = useState(() => new QueryClient({ defaultOptions: { queries: { staleTime: 30_000, retry: 1 } } }));
+  return (
+    <QueryClientProvider client={client}>
+      <Outlet />
+    </QueryClientProvider>
+  );
 }
 
 export function ErrorBoundary({ error }: Route.ErrorBoundaryProps) {

@@ -7,6 +7,13 @@ import { getStripe } from "~/.server/billing/stripe";
 import { seedDemoBilling } from "./seed/billing";
 import { DEMO_FLEETS, DEMO_ORGANISATIONS, DEMO_PASSWORD } from "./seed/demo-data";
 import { seedGainSets } from "./seed/gain-sets";
+import { seedDemoRelease } from "./seed/demo-release";
+
+/** One demo release per organisation with a fleet (scripts/seed/demo-release.ts). */
+const DEMO_RELEASES: Record<string, { templateKey: string; author: string; approver: string }> = {
+  corvid: { templateKey: "screw_speed", author: "engineer@corvid.example", approver: "engineer2@corvid.example" },
+  pellworth: { templateKey: "flow", author: "engineer@pellworth.example", approver: "owner@pellworth.example" },
+};
 
 export async function seedDemo(): Promise<boolean> {
   const db = getDb();
@@ -19,9 +26,9 @@ export async function seedDemo(): Promise<boolean> {
       const userIds = new Map<string, string>();
       for (const person of demo.people) {
         const created = await createUser(tx, { email: person.email, name: person.name, password: DEMO_PASSWORD });
+        userIds.set(person.email, created.id);
         const membership = await addMember(tx, { organisationId: org.id, userId: created.id, role: person.role });
         members.set(person.email, membership.id);
-        userIds.set(person.email, created.id);
       }
       const sitesByCustomer = new Map<string, string[]>();
       const siteIdsByName = new Map<string, string>();
@@ -51,6 +58,10 @@ export async function seedDemo(): Promise<boolean> {
           }
         }
         await seedGainSets(tx, { organisationId: org.id, slug: demo.slug, templates: model.templates, users: userIds });
+        const release = DEMO_RELEASES[demo.slug];
+        if (release) {
+          await seedDemoRelease(tx, { organisationId: org.id, modelId: model.id, templateKey: release.templateKey, authorId: userIds.get(release.author)!, approverId: userIds.get(release.approver)! });
+        }
       }
       for (const assignment of demo.siteManagers) {
         for (const siteId of sitesByCustomer.get(assignment.customer) ?? []) {

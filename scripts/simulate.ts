@@ -9,11 +9,12 @@
 // Live mode backfills first when an organisation has no digests at all.
 import { mkdirSync, readFileSync, writeFileSync } from "node:fs";
 import path from "node:path";
-import { decodeJwt } from "jose";
 import { asc, eq, sql } from "drizzle-orm";
 import { closeDb, getDb } from "~/.server/db/client";
 import { loop, loopTemplate, machine, organisation } from "~/.server/db/schema";
 import { issueEnrolmentCode } from "~/.server/fleet/enrolment-codes";
+import { pinJwks, type PinnedJwks } from "./simulator/config-verifier";
+import { syncConfig } from "./simulator/config-sync";
 import { createDeviceIdentity, DeviceClient, type DeviceIdentity } from "./simulator/device-client";
 import { ageingFor, LoopSim } from "./simulator/plants";
 
@@ -37,14 +38,17 @@ function parseDuration(text: string): number {
 
 type SimMachine = { id: string; organisationId: string; slug: string; serial: string; client: DeviceClient; loops: Map<string, LoopSim>; seq: Map<string, number>; etag?: string; queue: unknown[] };
 
-function loadState(): Record<string, DeviceIdentity> {
+/** A device's saved identity plus the organisation JWKS it pinned at enrolment. */
+type SavedDevice = DeviceIdentity & { pin?: PinnedJwks };
+
+function loadState(): Record<string, SavedDevice> {
   try {
     return JSON.parse(readFileSync(STATE_FILE, "utf8"));
   } catch {
     return {};
   }
 }
-function saveState(state: Record<string, DeviceIdentity>) {
+function saveState(state: Record<string, SavedDevice>) {
   mkdirSync(path.dirname(STATE_FILE), { recursive: true });
   writeFileSync(STATE_FILE, JSON.stringify(state, null, 1), { mode: 0o600 });
 }
@@ -69,18 +73,28 @@ async function withRetries(send: () => Promise<Response>, attempts = 6): Promise
   }
 }
 
-async function enrolIfNeeded(m: { id: string; organisationId: string; serial: string }, state: Record<string, DeviceIdentity>, force = false): Promise<DeviceClient> {
-  let identity = force ? undefined : state[m.id];
-  if (identity?.deviceId) return new DeviceClient(baseUrl, identity);
+async function enrolIfNeeded(m: { id: string; organisationId: string; serial: string; slug: string }, state: Record<string, SavedDevice>, force = false): Promise<DeviceClient> {
+  let identity: SavedDevice | undefined = force ? undefined : state[m.id];
+  if (identity?.deviceId) {
+    // Devices saved before pinning existed pin their organisation's JWKS now (trust on first use).
+    if (!identity.pin) {
+      identity.pin = await pinJwks(`${baseUrl}/api/v1/o/${m.slug}/jwks.json`);
+      saveState(state);
+    }
+    return new DeviceClient(baseUrl, identity);
+  }
   identity = await createDeviceIdentity(m.serial.length % 3 === 0 ? "ES256" : "EdDSA");
   // The simulator stands in for the person who types the code into the controller.
   const { code } = await issueEnrolmentCode(getDb(), { organisationId: m.organisationId, machineId: m.id, actor: "system" });
   const client = new DeviceClient(baseUrl, identity);
   const response = await withRetries(() => client.enrol(code, "sim-1.0"));
   if (response.status !== 201) throw new Error(`enrolment of ${m.serial} failed: ${response.status} ${await response.text()}`);
-  state[m.id] = client.identity;
+  // Pin the organisation's JWKS at the address enrolment named, on the server enrolled with.
+  const { jwksUrl } = (await response.json()) as { jwksUrl: string };
+  const pinned: SavedDevice = { ...client.identity, pin: await pinJwks(new URL(jwksUrl, baseUrl).href) };
+  state[m.id] = pinned;
   saveState(state);
-  return client;
+  return new DeviceClient(baseUrl, pinned);
 }
 
 async function loadFleet(): Promise<SimMachine[]> {
@@ -140,17 +154,19 @@ async function flush(m: SimMachine, stats: { posted: number; rejected: number })
 }
 
 async function pullConfig(m: SimMachine) {
-  const response = await withRetries(() => m.client.getConfig(m.etag));
-  if (response.status === 304 || !response.ok) return;
-  m.etag = response.headers.get("etag") ?? undefined;
-  const jws = await response.text();
-  // A real device verifies the JWS against the JWKS first; the integration tests do that.
-  const payload = decodeJwt(jws) as { loops: { key: string; version: number; gains: { kp: number; ki: number; kd: number } }[] };
-  for (const l of payload.loops) {
-    const sim = m.loops.get(l.key);
-    if (!sim || sim.gainVersion >= l.version) continue;
-    sim.applyGains(l.gains, l.version);
-    await withRetries(() => m.client.ack({ loop: l.key, version: l.version, status: "applied" }));
+  const identity = m.client.identity as SavedDevice;
+  const applied = new Map([...m.loops].map(([key, sim]) => [key, sim.gainVersion]));
+  const state = { pin: identity.pin!, etag: m.etag, applied };
+  const before = state.pin.keys.keys.length;
+  const result = await syncConfig(m.client, state, (l) => m.loops.get(l.key)?.applyGains(l.gains, l.version), withRetries);
+  m.etag = state.etag;
+  if (result.status === "refused") console.error(`[simulator] ${m.serial}: configuration refused (${result.code}): ${result.message}`);
+  if (result.status === "done") for (const d of result.decisions) if (d.action === "refuse") console.error(`[simulator] ${m.serial}: ${d.key}: ${d.reason}`);
+  if (state.pin.keys.keys.length !== before) {
+    // The JWKS was fetched again after a key rotation: keep the new keys.
+    const saved = loadState();
+    saved[m.id] = identity;
+    saveState(saved);
   }
 }
 

@@ -72,6 +72,7 @@ cat <<TEXT
     viewer@corvid.example      viewer
     manager@halden.example     site manager of Halden Plastics' sites
     owner@pellworth.example    owner, Pellworth Pumps (/o/pellworth)
+    engineer@pellworth.example engineer, Pellworth Pumps
 
   Press Ctrl-C to stop.
 TEXT

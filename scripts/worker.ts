@@ -9,7 +9,7 @@ const boss = new PgBoss({ connectionString: env().DATABASE_URL, max: 4 });
 boss.on("error", (error) => console.error("[worker]", error));
 await boss.start();
 for (const job of JOBS) {
-  await boss.createQueue(job.name, job.policy ? { name: job.name, policy: job.policy } : undefined);
+  await boss.createQueue(job.name, { name: job.name, ...(job.policy ? { policy: job.policy } : {}), ...job.retry });
   await boss.work(job.name, { ...job.work }, async (jobs) => {
     for (const j of jobs) {
       const payload = job.schema.safeParse(j.data ?? {});

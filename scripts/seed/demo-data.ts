@@ -41,7 +41,11 @@ export const DEMO_ORGANISATIONS: DemoOrganisation[] = [
   {
     name: "Pellworth Pumps",
     slug: "pellworth",
-    people: [{ email: "owner@pellworth.example", name: "Marten Hollis", role: "owner" }],
+    people: [
+      { email: "owner@pellworth.example", name: "Marten Hollis", role: "owner" },
+      // A second member, so the demo release's gain set has a second pair of eyes.
+      { email: "engineer@pellworth.example", name: "Ilse Brandt", role: "engineer" },
+    ],
     customers: [{ name: "Dunmore Water Board", sites: [{ name: "Dunmore Intake", timeZone: "Europe/Dublin" }] }],
     siteManagers: [],
   },

@@ -10,10 +10,11 @@ import { expect, test as base, type Page } from "@playwright/test";
 import type { RouteConfigEntry } from "@react-router/dev/routes";
 import axe from "axe-core";
 import { and, asc, eq } from "drizzle-orm";
-import { customer, digest, gainSet, loop, machine, member, organisation, site, user } from "~/.server/db/schema";
+import { customer, digest, gainSet, loop, machine, member, organisation, release, site, user } from "~/.server/db/schema";
 import routes from "~/routes";
 import { createDeviceIdentity, DeviceClient, sampleDigest } from "../../scripts/simulator/device-client";
 import { createInvitation } from "../factories";
+import { ensureHealthDemo } from "./health-support";
 import { closeDb, db } from "../support/db";
 import { APP_URL, postJson, signIn } from "../support/http";
 import { signInAs } from "./support";
@@ -50,7 +51,7 @@ function pagePatterns(): string[] {
 }
 
 /** What the seeded demo database gives the placeholders: see demoData below. */
-type DemoData = { machineId: string; invitationId: string; gainSetId: string };
+type DemoData = { machineId: string; invitationId: string; gainSetId: string; findingId: string; loopId: string; siteId: string; releaseId: string };
 
 /** Where each URL parameter's value comes from, keyed by the segment before it. */
 const PARAMETERS: Record<string, (demo: DemoData) => string> = {
@@ -59,6 +60,11 @@ const PARAMETERS: Record<string, (demo: DemoData) => string> = {
   "machines/:id": (demo) => demo.machineId,
   "invitations/:id": (demo) => demo.invitationId,
   "gain-sets/:id": (demo) => demo.gainSetId,
+  // A Halden Plastics machine's saturation finding, loop and site (tests/e2e/health-support.ts).
+  "findings/:id": (demo) => demo.findingId,
+  "loop/:id": (demo) => demo.loopId,
+  "site/:id": (demo) => demo.siteId,
+  "releases/:id": (demo) => demo.releaseId,
 };
 
 function fillParameters(pattern: string, demo: DemoData): string {
@@ -215,7 +221,12 @@ async function demoData(): Promise<DemoData> {
     .orderBy(asc(gainSet.version))
     .limit(1);
   if (!proposed) throw new Error("the demo database has no proposed gain set: run scripts/seed.ts");
-  return { machineId: target.id, invitationId: invitation.id, gainSetId: proposed.id };
+  const health = await ensureHealthDemo();
+  const [first] = await db().select({ id: loop.id }).from(loop).where(eq(loop.machineId, target.id)).orderBy(asc(loop.key)).limit(1);
+  const [place] = await db().select({ siteId: machine.siteId }).from(machine).where(eq(machine.id, target.id));
+  const [demoRelease] = await db().select({ id: release.id }).from(release).where(eq(release.organisationId, target.organisationId)).orderBy(asc(release.createdAt)).limit(1);
+  if (!demoRelease) throw new Error("the demo database has no release: run scripts/seed.ts");
+  return { machineId: target.id, invitationId: invitation.id, gainSetId: proposed.id, findingId: health.chartFindingId, loopId: first!.id, siteId: place!.siteId, releaseId: demoRelease.id };
 }
 
 /** Enrol a device for the machine and post 24 five-minute windows per loop; the second loop saturates now and then. */

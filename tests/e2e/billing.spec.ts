@@ -105,3 +105,13 @@ test("a failed renewal shows past due, with the banner on every page", async ({ 
   await page.goto(`/o/${slug}/machines`);
   await expect(page.getByRole("link", { name: "Fix it on the billing page" })).toBeVisible();
 });
+
+test("the demo organisation's billing page shows months of paid invoices", async ({ page }) => {
+  await page.setViewportSize({ width: 1280, height: 900 });
+  await signInAs(page, "owner@corvid.example");
+  await page.goto("/o/corvid/billing");
+  await expect(page.getByText("Per machine", { exact: true })).toBeVisible();
+  await expect(page.getByText("Active", { exact: true })).toBeVisible();
+  expect(await page.getByRole("cell", { name: "Paid" }).count()).toBeGreaterThanOrEqual(4);
+  await page.screenshot({ path: `${SHOTS}/billing-demo.png`, fullPage: true });
+});

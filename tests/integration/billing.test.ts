@@ -11,9 +11,11 @@ import { afterAll, describe, expect, it } from "vitest";
 import { ensureBillingAccount } from "~/.server/billing/account";
 import { requireActiveSubscription } from "~/.server/billing/enforce";
 import { auditEvent, billingAccount, member, organisation } from "~/.server/db/schema";
+import { getStripe } from "~/.server/billing/stripe";
 import type { BillingSummary } from "~/.server/billing/account";
 import { DomainError } from "~/lib/errors";
 import { createStripeFake } from "../../fakes/stripe/server";
+import { seedDemoBilling } from "../../scripts/seed/billing";
 import { createDeviceIdentity, DeviceClient, sampleDigest } from "../../scripts/simulator/device-client";
 import { createTeam, createTestFleet, uniqueSuffix } from "../factories";
 import { freePort } from "../support/app-process";
@@ -236,5 +238,24 @@ describe("the local Stripe restarted", () => {
     } finally {
       rmSync(dir, { recursive: true, force: true });
     }
+  }, 120_000);
+});
+
+describe("the demo seed", () => {
+  it("leaves both demo organisations on an active subscription with months of paid invoices, and a second run duplicates nothing", async () => {
+    for (const [slug, email] of [["corvid", "owner@corvid.example"], ["pellworth", "owner@pellworth.example"]] as const) {
+      const summary = await billing(slug, await signIn(email));
+      expect(summary).toMatchObject({ plan: "per_machine", status: "active" });
+      expect(summary.invoices.filter((i) => i.status === "paid").length).toBeGreaterThanOrEqual(4);
+      expect(summary.machinesBilled).toBeGreaterThan(0);
+    }
+    const [corvid] = await db().select({ id: organisation.id }).from(organisation).where(eq(organisation.slug, "corvid"));
+    const customersOf = async () => (await stripe.customers.list({ limit: 100 })).data.filter((c) => c.metadata.organisation_id === corvid!.id);
+    const before = await customersOf();
+    expect(before).toHaveLength(1);
+    const subscriptionsBefore = await stripe.subscriptions.list({ customer: before[0]!.id, status: "all" });
+    expect(await seedDemoBilling(db(), getStripe(), ["corvid", "pellworth"])).toEqual(["corvid", "pellworth"]);
+    expect((await customersOf()).map((c) => c.id)).toEqual(before.map((c) => c.id));
+    expect((await stripe.subscriptions.list({ customer: before[0]!.id, status: "all" })).data.map((s) => s.id)).toEqual(subscriptionsBefore.data.map((s) => s.id));
   }, 120_000);
 });

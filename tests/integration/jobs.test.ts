@@ -24,7 +24,7 @@ async function run(job: CronJob, handle: Db = db()) {
 
 it("lists every job tested here", () => {
   // The billing jobs are tested in billing-webhooks.test.ts and billing-quantity.test.ts.
-  expect(JOBS.map((j) => j.name).sort()).toEqual(["billing.apply-stripe-event", "billing.sync-quantity", "device.purge-jtis", "fleet.ensure-digest-partitions", "fleet.refresh-health", "health.deliver-alerts", "health.evaluate-machine", "health.sweep"]);
+  expect(JOBS.map((j) => j.name).sort()).toEqual(["billing.apply-stripe-event", "billing.sync-quantity", "device.purge-jtis", "device.withdraw-signing-keys", "fleet.ensure-digest-partitions", "fleet.refresh-health", "health.deliver-alerts", "health.evaluate-machine", "health.sweep", "release.advance"]);
 });
 
 describe("device.purge-jtis", () => {

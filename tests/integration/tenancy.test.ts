@@ -4,7 +4,7 @@ import { and, asc, eq, inArray } from "drizzle-orm";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import type { RouteConfigEntry } from "@react-router/dev/routes";
 import routes from "~/routes";
-import { apiToken, auditEvent, gainSet, invitation, machine, machineModel, member, organisation, site, user } from "~/.server/db/schema";
+import { apiToken, auditEvent, finding, gainSet, invitation, loop, machine, machineModel, member, organisation, release, site, user } from "~/.server/db/schema";
 import { get, postForm, signIn, type Session } from "../support/http";
 import { closeDb, db } from "../support/db";
 import { uniqueSuffix } from "../factories";
@@ -49,6 +49,18 @@ async function firstGainSetId(slug: string): Promise<string> {
   return row.id;
 }
 
+async function firstReleaseId(slug: string): Promise<string> {
+  const [row] = await db()
+    .select({ id: release.id })
+    .from(release)
+    .innerJoin(organisation, eq(organisation.id, release.organisationId))
+    .where(eq(organisation.slug, slug))
+    .orderBy(asc(release.createdAt))
+    .limit(1);
+  if (!row) throw new Error(`the demo seed has no release in ${slug}`);
+  return row.id;
+}
+
 /**
  * Where a page's params get a real id of the organisation from the seeded demo, by the param
  * and the path segment before it. A page with a param this table cannot fill fails loudly:
@@ -58,7 +70,42 @@ async function firstGainSetId(slug: string): Promise<string> {
 const REAL_IDS: Record<string, (slug: string) => Promise<string>> = {
   "machines/:id": firstMachineId,
   "gain-sets/:id": firstGainSetId,
+  "findings/:id": firstFindingId,
+  "loop/:id": async (slug) => (await firstLoopOf(await firstMachineId(slug))).id,
+  "site/:id": async (slug) => (await one(db().select({ id: machine.siteId }).from(machine).where(eq(machine.id, await firstMachineId(slug))))).id,
+  "releases/:id": firstReleaseId,
 };
+
+async function one<T>(rows: Promise<T[]>): Promise<T> {
+  const [row] = await rows;
+  if (!row) throw new Error("the demo seed lacks a row this page needs");
+  return row;
+}
+
+async function firstLoopOf(machineId: string) {
+  return one(db().select({ id: loop.id, organisationId: loop.organisationId }).from(loop).where(eq(loop.machineId, machineId)).orderBy(asc(loop.key)).limit(1));
+}
+
+/** A finding of the organisation; one is recorded on its first machine when the demo has none yet. */
+async function firstFindingId(slug: string): Promise<string> {
+  const machineId = await firstMachineId(slug);
+  const target = await firstLoopOf(machineId);
+  const [existing] = await db().select({ id: finding.id }).from(finding).where(eq(finding.organisationId, target.organisationId)).orderBy(asc(finding.openedAt)).limit(1);
+  if (existing) return existing.id;
+  const [created] = await db()
+    .insert(finding)
+    .values({
+      organisationId: target.organisationId,
+      machineId,
+      loopId: target.id,
+      kind: "silent",
+      severity: "warning",
+      summary: "No digest received yet.",
+      evidence: { metric: "silence.secondsSinceDigest", value: null, threshold: null, unit: "s", windowStart: null, windowEnd: null, figures: {} },
+    })
+    .returning({ id: finding.id });
+  return created!.id;
+}
 
 /** Params of a page pattern other than :slug, each with the key REAL_IDS knows it by. */
 function paramKinds(pattern: string): { token: string; kind: string }[] {

@@ -2,6 +2,7 @@
 // with an idempotency key), checkout and portal sessions, and the summary the billing page and
 // GET /api/v1/o/:slug/billing show (invoices and the next invoice's estimate come from Stripe).
 import { and, count, eq, isNull } from "drizzle-orm";
+import StripeSdk from "stripe";
 import type Stripe from "stripe";
 import type { Db } from "~/.server/db/client";
 import { billingAccount, machine, member, organisation, user } from "~/.server/db/schema";
@@ -177,8 +178,14 @@ export async function getBillingSummary(db: Db, stripe: Stripe, { organisationId
   }
   let nextInvoiceEstimate: { amount: number; currency: string };
   if (hasLiveSubscription(account) && account.stripeCustomerId) {
-    const preview = await stripe.invoices.createPreview({ customer: account.stripeCustomerId, subscription: account.stripeSubscriptionId! });
-    nextInvoiceEstimate = { amount: preview.amount_due, currency: preview.currency };
+    try {
+      const preview = await stripe.invoices.createPreview({ customer: account.stripeCustomerId, subscription: account.stripeSubscriptionId! });
+      nextInvoiceEstimate = { amount: preview.amount_due, currency: preview.currency };
+    } catch (error) {
+      // Ended on Stripe before its webhook reached us: no next invoice.
+      if (!(error instanceof StripeSdk.errors.StripeInvalidRequestError)) throw error;
+      nextInvoiceEstimate = { amount: 0, currency: invoices[0]?.currency ?? "eur" };
+    }
   } else if (account.plan === "trial") {
     // No subscription to preview yet: what the first month would cost at today's machine count.
     const price = await getMachinePrice(stripe);

@@ -20,14 +20,6 @@ export function stripeClientFor(secretKey: string, baseUrl: string): Stripe {
   });
 }
 
-/** Where checkout and portal sessions send the browser: Stripe's hosted pages, or the local fake's. */
-export function checkoutOrigins(): string[] {
-  const base = new URL(env().STRIPE_BASE_URL);
-  if (base.hostname === "api.stripe.com") return ["https://checkout.stripe.com", "https://billing.stripe.com"];
-  const publicUrl = process.env.STRIPE_FAKE_PUBLIC_URL;
-  return [...new Set([base.origin, ...(publicUrl ? [new URL(publicUrl).origin] : [])])];
-}
-
 export function getStripe(): Stripe {
   if (!client) {
     const { STRIPE_SECRET_KEY, STRIPE_BASE_URL } = env();

@@ -19,6 +19,8 @@ import { ensureBillingAccount, getOwners } from "./account";
 import { getStripe } from "./stripe";
 
 export const APPLY_EVENT_JOB = "billing.apply-stripe-event";
+/** A failure (say the e-mail service is down) is tried again for about an hour. */
+export const APPLY_EVENT_QUEUE = { retryLimit: 10, retryDelay: 5, retryBackoff: true } as const;
 
 /** Verify and store one delivery; answers whether it was new. Throws DomainError 400 on a bad signature. */
 export async function receiveStripeWebhook(db: Db, { body, signature }: { body: string; signature: string | null }): Promise<{ duplicate: boolean }> {
@@ -40,10 +42,10 @@ export async function receiveStripeWebhook(db: Db, { body, signature }: { body: 
     // A replay. Already applied: nothing to do. Stored but not applied (say the enqueue was
     // lost): enqueue again; the job applies an event at most once.
     const [stored] = await db.select({ appliedAt: stripeEvent.appliedAt }).from(stripeEvent).where(eq(stripeEvent.id, event.id));
-    if (stored && !stored.appliedAt) await enqueue(APPLY_EVENT_JOB, { eventId: event.id });
+    if (stored && !stored.appliedAt) await enqueue(APPLY_EVENT_JOB, { eventId: event.id }, { queue: APPLY_EVENT_QUEUE });
     return { duplicate: true };
   }
-  await enqueue(APPLY_EVENT_JOB, { eventId: event.id });
+  await enqueue(APPLY_EVENT_JOB, { eventId: event.id }, { queue: APPLY_EVENT_QUEUE });
   return { duplicate: false };
 }
 

@@ -91,9 +91,16 @@ export const DigestBatchResponseSchema = z
 export const ConfigLoopSchema = z
   .object({
     key: z.string(),
-    version: z.number().int().meta({ description: "Increases with every change to this loop's gains." }),
-    form: z.literal("parallel"),
+    version: z.number().int().meta({ description: "Increases with every change to this loop's gains (a roll back too). Refuse a version lower than the one applied." }),
+    gainSetId: z.uuid().nullable().meta({ description: "The released gain set; null = the loop template's defaults." }),
+    form: z.literal("parallel").meta({ description: "Gains are always sent in parallel form." }),
     gains: z.object({ kp: z.number(), ki: z.number().meta({ description: "1/s" }), kd: z.number().meta({ description: "s" }) }),
+    filterN: z.number().meta({ description: "Derivative filter N (Tf = Td/N)." }),
+    setpointWeight: z.number().meta({ description: "Set-point weight b on the proportional term." }),
+    antiWindup: z.enum(["clamp", "back_calculation"]),
+    trackingTime: z.number().nullable().meta({ description: "Back-calculation tracking time Tt in s; null = the controller's default." }),
+    integratorMin: z.number().nullable().meta({ description: "Integrator limits; null = derived from the output range." }),
+    integratorMax: z.number().nullable(),
     outputMin: z.number(),
     outputMax: z.number(),
     samplePeriod: z.number().meta({ description: "s" }),

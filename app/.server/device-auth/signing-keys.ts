@@ -3,11 +3,18 @@
 // without), never on a read; the public halves are published as a JWKS at
 // /api/v1/o/:slug/jwks.json.
 //
+// Rotation (rotateSigningKey, `npm run keys:rotate -- <slug>`): a new key becomes the one
+// active key and signs from then on; the old one is `retired` and stays in the JWKS for the
+// overlap (SIGNING_KEY_OVERLAP_MS, longer than a configuration lives), after which the
+// `device.withdraw-signing-keys` job withdraws it from the JWKS. Config pulls learn the active
+// kid from their gate statement, so the app signs with the new key from the next pull on.
+//
 // Private keys are stored encrypted (AES-256-GCM under the key-encryption key in
 // FLYBALL_KEY_ENCRYPTION_KEY, which npm start generates into .local/ and which never enters the
 // database): a dump of the database alone cannot sign a configuration.
 import { createCipheriv, createDecipheriv, randomBytes } from "node:crypto";
-import { and, asc, eq, notExists, sql } from "drizzle-orm";
+import { and, asc, desc, eq, inArray, lt, notExists, sql } from "drizzle-orm";
+import { recordAudit } from "~/.server/audit/record-audit";
 import { exportJWK, generateKeyPair, importJWK, type CryptoKey } from "jose";
 import type { Db } from "~/.server/db/client";
 import { organisation, organisationSigningKey } from "~/.server/db/schema";
@@ -17,7 +24,12 @@ export type SigningKey = { kid: string; alg: "EdDSA"; privateKey: CryptoKey | Ui
 /** The stored form of a private JWK: `{ enc, iv, tag, ct }`, all base64url. */
 export type SealedJwk = { enc: "A256GCM"; iv: string; tag: string; ct: string };
 
-const cache = new Map<string, Promise<SigningKey>>();
+const cache = new Map<string, { at: number; kid: string | null; key: Promise<SigningKey> }>();
+
+/** How long a process keeps using the active key it loaded when the caller cannot name the current kid. */
+export const KEY_CACHE_MS = 60_000;
+/** How long a retired key stays published: a configuration lives 24 h, devices may be offline a while. */
+export const SIGNING_KEY_OVERLAP_MS = 7 * 24 * 3600_000;
 
 function keyEncryptionKey(): Buffer {
   const text = process.env.FLYBALL_KEY_ENCRYPTION_KEY ?? "";
@@ -65,22 +77,67 @@ async function loadActiveKey(db: Db, organisationId: string): Promise<SigningKey
     .select({ id: organisationSigningKey.id, privateJwk: organisationSigningKey.privateJwk })
     .from(organisationSigningKey)
     .where(and(eq(organisationSigningKey.organisationId, organisationId), eq(organisationSigningKey.status, "active")))
-    .orderBy(asc(organisationSigningKey.createdAt), asc(organisationSigningKey.id))
+    .orderBy(desc(organisationSigningKey.createdAt), asc(organisationSigningKey.id))
     .limit(1);
   if (!row) throw new Error(`organisation ${organisationId} has no active signing key`);
   const jwk = isSealed(row.privateJwk) ? openJwk(row.privateJwk as unknown as SealedJwk, organisationId) : row.privateJwk;
   return { kid: row.id, alg: "EdDSA", privateKey: await importJWK({ ...jwk, alg: "EdDSA" }, "EdDSA") };
 }
 
-/** The organisation's active signing key (cached per process; keys are only ever added). */
-export function loadSigningKey(db: Db, organisationId: string): Promise<SigningKey> {
-  let pending = cache.get(organisationId);
-  if (!pending) {
-    pending = loadActiveKey(db, organisationId);
-    pending.catch(() => cache.delete(organisationId));
-    cache.set(organisationId, pending);
+/**
+ * The organisation's active signing key, cached per process. `activeKid` (the config pull's
+ * gate statement reads it) makes a rotation take effect at the next pull; without it the cached
+ * key is used for KEY_CACHE_MS.
+ */
+export function loadSigningKey(db: Db, organisationId: string, activeKid?: string | null, now = Date.now()): Promise<SigningKey> {
+  const cached = cache.get(organisationId);
+  if (cached && (activeKid ? cached.kid === activeKid : now - cached.at < KEY_CACHE_MS)) return cached.key;
+  const key = loadActiveKey(db, organisationId);
+  key.catch(() => cache.delete(organisationId));
+  cache.set(organisationId, { at: now, kid: activeKid ?? null, key });
+  key.then((k) => {
+    const entry = cache.get(organisationId);
+    if (entry?.key === key) entry.kid = k.kid;
+  }, () => undefined);
+  return key;
+}
+
+/**
+ * Rotate: the active key is retired (still published) and a new one becomes active. Runs in
+ * one transaction (the partial unique index allows one active key per organisation).
+ */
+export async function rotateSigningKey(db: Db, { organisationId, actor }: { organisationId: string; actor: string }) {
+  const result = await db.transaction(async (tx) => {
+    const retired = await tx
+      .update(organisationSigningKey)
+      .set({ status: "retired", retiredAt: new Date() })
+      .where(and(eq(organisationSigningKey.organisationId, organisationId), eq(organisationSigningKey.status, "active")))
+      .returning({ id: organisationSigningKey.id });
+    const id = await createSigningKey(tx, { organisationId });
+    await recordAudit(tx, { organisationId, actor, action: "signing_key.rotated", targetType: "signing_key", targetId: id, detail: { retired: retired.map((r) => r.id) } });
+    return { kid: id, retired: retired.map((r) => r.id) };
+  });
+  cache.delete(organisationId);
+  return result;
+}
+
+/** Withdraw keys retired longer than the overlap from the JWKS (every organisation, or one). Idempotent. */
+export async function withdrawRetiredSigningKeys(db: Db, { now = new Date(), overlapMs = SIGNING_KEY_OVERLAP_MS, organisationId }: { now?: Date; overlapMs?: number; organisationId?: string } = {}) {
+  const rows = await db
+    .update(organisationSigningKey)
+    .set({ status: "withdrawn", withdrawnAt: now })
+    .where(
+      and(
+        eq(organisationSigningKey.status, "retired"),
+        lt(organisationSigningKey.retiredAt, new Date(now.getTime() - overlapMs)),
+        organisationId ? eq(organisationSigningKey.organisationId, organisationId) : undefined,
+      ),
+    )
+    .returning({ organisationId: organisationSigningKey.organisationId, id: organisationSigningKey.id });
+  for (const row of rows) {
+    await recordAudit(db, { organisationId: row.organisationId, actor: "system", action: "signing_key.withdrawn", targetType: "signing_key", targetId: row.id });
   }
-  return pending;
+  return rows.length;
 }
 
 /** The JWKS of an organisation by slug, or null when there is no such organisation. Reads only. */
@@ -90,7 +147,7 @@ export async function getOrganisationJwks(db: Db, slug: string) {
   const rows = await db
     .select({ id: organisationSigningKey.id, alg: organisationSigningKey.alg, publicJwk: organisationSigningKey.publicJwk })
     .from(organisationSigningKey)
-    .where(eq(organisationSigningKey.organisationId, org.id))
+    .where(and(eq(organisationSigningKey.organisationId, org.id), inArray(organisationSigningKey.status, ["active", "retired"])))
     .orderBy(asc(organisationSigningKey.createdAt));
   return { keys: rows.map((r) => ({ kty: r.publicJwk.kty, crv: r.publicJwk.crv, x: r.publicJwk.x, kid: r.id, alg: r.alg, use: "sig" })) };
 }

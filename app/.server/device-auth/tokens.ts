@@ -19,8 +19,11 @@ export const MAX_TOKEN_LIFETIME_S = 300;
 export const CLOCK_SKEW_S = 60;
 
 export type DeviceContext = { organisationId: string; deviceId: string; machineId: string };
-/** With `withConfigState`, also a digest of the machine's configuration as of this request. */
-export type AuthenticatedDevice = DeviceContext & { configState: string | null };
+/**
+ * With `withConfigState`, also a digest of the machine's configuration as of this request and
+ * the organisation's active signing key id (so a rotation is seen at once, without a query).
+ */
+export type AuthenticatedDevice = DeviceContext & { configState: string | null; signingKid: string | null };
 
 type CachedKey = { organisationId: string; machineId: string; alg: string; key: CryptoKey | Uint8Array };
 const keyCache = new Map<string, CachedKey>();
@@ -112,14 +115,16 @@ with request as (
 ), ${TOKEN_CHECK_CTES}
 select s.req, s.device_status, s.machine_status, p.req is not null as fresh,
   case when s.want_config and p.req is not null then (
-    select md5(string_agg(concat_ws('|', l.key, l.config_version, l.gains::text, t.output_min, t.output_max, t.sample_period_s), ';' order by l.key))
+    select md5(string_agg(concat_ws('|', l.key, l.config_version, l.gain_set_id, l.gains::text, t.output_min, t.output_max, t.sample_period_s), ';' order by l.key))
     from loop l join loop_template t on t.organisation_id = l.organisation_id and t.id = l.template_id
-    where l.organisation_id = s.organisation_id and l.machine_id = s.machine_id) end as config_state
+    where l.organisation_id = s.organisation_id and l.machine_id = s.machine_id) end as config_state,
+  case when s.want_config and p.req is not null then (
+    select k.id::text from organisation_signing_key k where k.organisation_id = s.organisation_id and k.status = 'active') end as signing_kid
 from state s left join passed p on p.req = s.req
 order by s.req`;
 
 type GateItem = VerifiedToken & { wantConfig: boolean };
-type GateAnswer = TokenStanding & { config_state: string | null };
+type GateAnswer = TokenStanding & { config_state: string | null; signing_kid: string | null };
 
 /**
  * Runs a batch in which a token may come more than once (a replay sent beside its first use):
@@ -156,7 +161,7 @@ async function queryGate(items: GateItem[]): Promise<GateAnswer[]> {
   return result.rows;
 }
 
-const runGate = (items: readonly GateItem[]) => runOncePerToken(items, (item) => item, queryGate, (first) => ({ ...first, fresh: false, config_state: null }));
+const runGate = (items: readonly GateItem[]) => runOncePerToken(items, (item) => item, queryGate, (first) => ({ ...first, fresh: false, config_state: null, signing_kid: null }));
 
 const gate = createBatcher(runGate, { maxInFlight: 2, maxBatchSize: 256 });
 
@@ -202,7 +207,7 @@ export async function admitDeviceToken(token: VerifiedToken, { withConfigState =
   const standing = await gate.run({ ...token, wantConfig: withConfigState });
   const refusal = refusalOf(standing);
   if (refusal) throw deviceUnauthorized(refusal);
-  return { organisationId: token.organisationId, deviceId: token.deviceId, machineId: token.machineId, configState: standing.config_state };
+  return { organisationId: token.organisationId, deviceId: token.deviceId, machineId: token.machineId, configState: standing.config_state, signingKid: standing.signing_kid };
 }
 
 async function verify(request: Request, now: Date): Promise<VerifiedToken> {

@@ -47,6 +47,17 @@ export function invitationEmail(inviterName: string, organisationName: string, r
   };
 }
 
+export function releaseHeldEmail(name: string, organisationName: string, gainSetVersion: number, reason: string, url: string) {
+  return {
+    subject: `Release of gain set v${gainSetVersion} is held (${organisationName})`,
+    ...layout(
+      `Hello ${name},`,
+      [`The release of gain set v${gainSetVersion} stopped offering new gains and waits for your decision: resume it, or roll it back.`, `Why: ${reason}`],
+      { label: "Open the release", url },
+    ),
+  };
+}
+
 export function paymentFailedEmail(organisationName: string, amount: string, url: string) {
   return {
     subject: `Payment for ${organisationName} on Flyball failed`,

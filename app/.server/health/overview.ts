@@ -60,7 +60,8 @@ export async function getOverview(db: Db, scope: SiteScope, query: OverviewQuery
           select machine_id as "machineId", serial, rank, health_score as score, key as "loopKey",
                  case when rank = ${BAND_RANK.silent}::int then null else health_reasons->>0 end as reason
           from per_machine where rank >= ${BAND_RANK.watch}::int
-          order by rank desc, health_score asc nulls first, serial limit ${ATTENTION_LIMIT}) x) as attention,
+          -- act, then watch, then silent: a fleet with many unwired machines still lists the failing ones
+          order by case rank when ${BAND_RANK.act}::int then 0 when ${BAND_RANK.watch}::int then 1 else 2 end, health_score asc nulls first, serial limit ${ATTENTION_LIMIT}) x) as attention,
         (select json_agg(x) from (
           select to_char(d.day, 'YYYY-MM-DD') as day, d.band, count(*)::int as n
           from loop_health_day d

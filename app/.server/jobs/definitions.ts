@@ -3,9 +3,11 @@
 import { sql } from "drizzle-orm";
 import { z } from "zod";
 import type { Db } from "~/.server/db/client";
+import { withdrawRetiredSigningKeys } from "~/.server/device-auth/signing-keys";
+import { advanceRelease, listActiveReleases } from "~/.server/releases/releases";
 import { SYNC_QUANTITY_JOB, SYNC_QUANTITY_QUEUE, syncQuantity } from "~/.server/billing/quantity";
 import { getStripe } from "~/.server/billing/stripe";
-import { APPLY_EVENT_JOB, applyStripeEvent } from "~/.server/billing/webhooks";
+import { APPLY_EVENT_JOB, APPLY_EVENT_QUEUE, applyStripeEvent } from "~/.server/billing/webhooks";
 import { evaluateMachineHealth } from "~/.server/health/evaluate";
 import { deliverAlerts } from "~/.server/health/alerts";
 import { DELIVER_ALERTS_JOB, EVALUATE_MACHINE_JOB, sendDeliverAlerts } from "~/.server/health/queue";
@@ -17,6 +19,8 @@ export type JobDefinition<S extends z.ZodType> = {
   cron?: string;
   /** pg-boss queue policy; `stately` keeps one waiting job per singleton key (debounce). */
   policy?: "standard" | "stately";
+  /** pg-boss retries of a failed job (its defaults otherwise). */
+  retry?: { retryLimit?: number; retryDelay?: number; retryBackoff?: boolean };
   /** How the worker fetches (pg-boss polls every 2 s for one job unless told otherwise). */
   work?: { batchSize?: number; pollingIntervalSeconds?: number };
   handler: (db: Db, payload: z.infer<S>) => Promise<void>;
@@ -77,12 +81,43 @@ export const refreshFleetHealth = defineJob({
   },
 });
 
+/** Signing keys retired by a rotation leave the JWKS once their overlap has passed. */
+export const withdrawSigningKeys = defineJob({
+  name: "device.withdraw-signing-keys",
+  schema: z.object({}).passthrough(),
+  cron: "41 * * * *",
+  handler: async (db) => {
+    await withdrawRetiredSigningKeys(db);
+  },
+});
+
+/**
+ * Releases in their pilot or widening: evaluate the guard (hold at once when it says so),
+ * widen after the guard window, complete when every target answered. Each minute; a release
+ * is locked while it is advanced, so overlapping runs do no harm.
+ */
+export const advanceReleases = defineJob({
+  name: "release.advance",
+  schema: z.object({}).passthrough(),
+  cron: "* * * * *",
+  handler: async (db) => {
+    for (const r of await listActiveReleases(db)) {
+      try {
+        await advanceRelease(db, { organisationId: r.organisationId, releaseId: r.id });
+      } catch (error) {
+        console.error(`[release.advance] ${r.id}:`, (error as Error).message);
+      }
+    }
+  },
+});
+
 /** A verified Stripe event stored by POST /api/webhooks/stripe, applied once (app/.server/billing/webhooks.ts). */
 export const applyStripeEventJob = defineJob({
   name: APPLY_EVENT_JOB,
   schema: z.object({ eventId: z.string().min(1) }),
   // Events come in bursts (a checkout raises half a dozen): fetch many, often, apply in order.
   work: { batchSize: 20, pollingIntervalSeconds: 0.5 },
+  retry: APPLY_EVENT_QUEUE,
   handler: async (db, { eventId }) => {
     await applyStripeEvent(db, { eventId });
   },
@@ -138,4 +173,4 @@ export const deliverAlertsJob = defineJob({
   },
 });
 
-export const JOBS = [ensureDigestPartitions, purgeDeviceJtis, refreshFleetHealth, evaluateMachine, sweepFindings, deliverAlertsJob, applyStripeEventJob, syncBillingQuantity] as const;
+export const JOBS = [ensureDigestPartitions, purgeDeviceJtis, refreshFleetHealth, evaluateMachine, sweepFindings, deliverAlertsJob, applyStripeEventJob, syncBillingQuantity, withdrawSigningKeys, advanceReleases] as const;

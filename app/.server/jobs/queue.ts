@@ -21,7 +21,7 @@ function boss(): Promise<PgBoss> {
   return pending;
 }
 
-export type QueueOptions = { policy?: "standard" | "stately" };
+export type QueueOptions = { policy?: "standard" | "stately"; retryLimit?: number; retryDelay?: number; retryBackoff?: boolean };
 
 /**
  * Put a job on its queue (created on first use, as the worker does). With a `stately` queue and

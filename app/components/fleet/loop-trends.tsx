@@ -1,6 +1,6 @@
 // Trends of one loop's IAE, saturation share and clamped-integrator share, fetched in the
 // browser from the management API through TanStack Query.
-import { keepPreviousData, QueryClient, QueryClientProvider, useQuery } from "@tanstack/react-query";
+import { keepPreviousData, useQuery } from "@tanstack/react-query";
 import { useState } from "react";
 import { TrendChart } from "~/components/charts/trend-chart";
 
@@ -15,8 +15,8 @@ export const RANGES = [
 
 type DigestPoint = { windowStart: string; iae: number; satHighFrac: number; satLowFrac: number; intClampFrac: number };
 
-function Trends({ slug, loops }: { slug: string; loops: TrendLoop[] }) {
-  const [loopId, setLoopId] = useState(loops[0]?.id ?? "");
+function Trends({ slug, loops, initialLoopId }: { slug: string; loops: TrendLoop[]; initialLoopId?: string }) {
+  const [loopId, setLoopId] = useState(initialLoopId ?? loops[0]?.id ?? "");
   const [rangeId, setRangeId] = useState<(typeof RANGES)[number]["id"]>("24h");
   const range = RANGES.find((r) => r.id === rangeId)!;
   const loop = loops.find((l) => l.id === loopId) ?? loops[0];
@@ -72,11 +72,6 @@ function Trends({ slug, loops }: { slug: string; loops: TrendLoop[] }) {
   );
 }
 
-export function LoopTrends(props: { slug: string; loops: TrendLoop[] }) {
-  const [client] = useState(() => new QueryClient({ defaultOptions: { queries: { staleTime: 30_000, retry: 1 } } }));
-  return (
-    <QueryClientProvider client={client}>
-      <Trends {...props} />
-    </QueryClientProvider>
-  );
+export function LoopTrends(props: { slug: string; loops: TrendLoop[]; initialLoopId?: string }) {
+  return <Trends key={props.initialLoopId} {...props} />;
 }

@@ -12,7 +12,7 @@ import { PageHeader } from "~/components/org-shell";
 import { Button } from "~/components/ui/button";
 import { SelectField } from "~/components/ui/field";
 import { Notice } from "~/components/ui/notice";
-import { holdMessage, holdReason, STATUS_LABELS, TRIAL_MACHINE_LIMIT } from "~/lib/billing/rules";
+import { type HoldReason, holdReason, STATUS_LABELS, TRIAL_MACHINE_LIMIT } from "~/lib/billing/rules";
 import { ROLE_LABELS, isRole } from "~/lib/access/capabilities";
 import type { Route } from "./+types/billing";
 
@@ -57,6 +57,13 @@ export async function action({ request, params }: Route.ActionArgs) {
   }
 }
 
+export const meta: Route.MetaFunction = () => [{ title: "Billing · Flyball" }];
+
+function howToResume(hold: HoldReason): string {
+  if (hold === "past_due" || hold === "unpaid") return "Choose “Change card or cancel” and enter a card that works: the open invoice is charged to it at once, and registering machines and starting releases work again as soon as it is paid.";
+  return "Start the per-machine subscription below: registering machines and starting releases work again as soon as the first payment goes through.";
+}
+
 function money(cents: number, currency: string) {
   return new Intl.NumberFormat("en-GB", { style: "currency", currency: currency.toUpperCase() }).format(cents / 100);
 }
@@ -83,7 +90,8 @@ export default function Billing({ loaderData, actionData }: Route.ComponentProps
   const trial = summary.plan === "trial";
   const hold = holdReason({ plan: summary.plan, status: summary.status, trialEndsAt: new Date(summary.trialEndsAt), activeMachines: summary.activeMachines }, new Date(now));
   const live = summary.plan === "per_machine" && summary.status !== "canceled";
-  const statusLabel = trial && new Date(summary.trialEndsAt) < new Date(now) ? "Trial ended" : STATUS_LABELS[summary.status];
+  const daysLeft = Math.ceil((Date.parse(summary.trialEndsAt) - Date.parse(now)) / 86_400_000);
+  const statusLabel = !trial ? STATUS_LABELS[summary.status] : daysLeft <= 0 ? "Trial ended" : `Trial, ${daysLeft} ${daysLeft === 1 ? "day" : "days"} left`;
   return (
     <>
       <PageHeader title="Billing" description="Flyball is billed per active machine each month. Only the owner sees this page." />
@@ -96,7 +104,7 @@ export default function Billing({ loaderData, actionData }: Route.ComponentProps
           <Notice tone="caution" title="No subscription was started">The checkout was left without a payment (for example, the card was declined). Your plan is unchanged; you can try again with another card.</Notice>
         ) : null}
         {actionData && !actionData.ok ? <Notice tone="error">{actionData.message}</Notice> : null}
-        {hold ? <Notice tone="error" title="New machines and releases are paused">{holdMessage(hold)}</Notice> : null}
+        {hold ? <Notice tone="error" title="How to resume new machines and releases">{howToResume(hold)}</Notice> : null}
 
         <section aria-labelledby="plan-heading" className="space-y-3">
           <h2 id="plan-heading" className="font-semibold">Plan</h2>
@@ -109,13 +117,13 @@ export default function Billing({ loaderData, actionData }: Route.ComponentProps
           </dl>
           <div className="flex flex-wrap gap-2">
             {!live ? (
-              <Form method="post" reloadDocument>
+              <Form method="post">
                 <input type="hidden" name="intent" value="checkout" />
                 <Button type="submit" disabled={busy}>Start the per-machine subscription</Button>
               </Form>
             ) : null}
             {summary.stripeCustomerId ? (
-              <Form method="post" reloadDocument>
+              <Form method="post">
                 <input type="hidden" name="intent" value="portal" />
                 <Button type="submit" variant={live ? "primary" : "secondary"} disabled={busy}>Change card or cancel</Button>
               </Form>
@@ -163,7 +171,8 @@ export default function Billing({ loaderData, actionData }: Route.ComponentProps
           ) : (
             <Form method="post" className="flex flex-wrap items-end gap-2">
               <input type="hidden" name="intent" value="transfer" />
-              <SelectField label="New owner" name="memberId" className="min-w-64">
+              <SelectField label="New owner" name="memberId" className="min-w-64" defaultValue="">
+                <option value="" disabled>Choose a member…</option>
                 {candidates.map((c) => <option key={c.memberId} value={c.memberId}>{c.name} ({isRole(c.role) ? ROLE_LABELS[c.role] : c.role})</option>)}
               </SelectField>
               <Button type="submit" variant="danger" disabled={busy}>Hand over ownership</Button>

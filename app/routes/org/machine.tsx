@@ -1,4 +1,4 @@
-import { data, Form, useNavigation } from "react-router";
+import { data, Form, Link, useNavigation } from "react-router";
 import { z } from "zod";
 import { requireCapability, requireCapableMember } from "~/.server/auth/guards";
 import { requestQuantitySync } from "~/.server/billing/quantity";
@@ -7,32 +7,76 @@ import { actionFailure } from "~/.server/http/errors";
 
 import { decommissionMachine, getMachine, regenerateEnrolmentCode, revokeMachineDevice } from "~/.server/fleet/machines";
 import { getSiteScope } from "~/.server/fleet/scope";
+import { listFindings } from "~/.server/health/findings";
+import { getLoopHealth } from "~/.server/health/overview";
+import { createRetuneRequest } from "~/.server/health/retune";
 import { formatAgo, formatDateTime, formatSig } from "~/components/fleet/format";
 import { HealthBadge } from "~/components/fleet/health-badge";
 import { LoopTrends } from "~/components/fleet/loop-trends";
+import { LoopHealthPanel } from "~/components/health/loop-health-panel";
+import { SeverityBadge } from "~/components/health/overview-panels";
+import { pickLoop } from "~/components/health/worst-loop";
+import { KIND_LABELS, STATE_LABELS } from "~/components/health/words";
 import { PageHeader } from "~/components/org-shell";
 import { Button } from "~/components/ui/button";
 import { Notice } from "~/components/ui/notice";
 import { can } from "~/lib/access/capabilities";
+import { FindingsQuerySchema, RetuneCreateSchema } from "~/lib/health/api-types";
 import type { Route } from "./+types/machine";
 
 export async function loader({ request, params }: Route.LoaderArgs) {
   const membership = await requireCapableMember(request, params.slug, "fleet:read");
   const db = getDb();
-  const machine = await getMachine(db, await getSiteScope(db, membership), params.id);
+  const scope = await getSiteScope(db, membership);
+  const machine = await getMachine(db, scope, params.id);
   if (!machine) throw data({ message: "No such machine." }, { status: 404 });
-  return { machine, slug: membership.organisation.slug, canManage: can(membership.role, "machines:manage") };
+  // The page opens on the machine's worst loop unless `?loop=` names another of its loops.
+  const selected = pickLoop(machine.loops, new URL(request.url).searchParams.get("loop"));
+  const unresolved = (state: "open" | "acknowledged") => listFindings(db, scope, FindingsQuerySchema.parse({ machineId: machine.id, state, sort: "severity", dir: "desc", pageSize: 100 }));
+  const [loopHealth, open, acknowledged] = await Promise.all([selected ? getLoopHealth(db, scope, selected.id) : null, unresolved("open"), unresolved("acknowledged")]);
+  return {
+    machine,
+    slug: membership.organisation.slug,
+    selectedLoopId: selected?.id ?? null,
+    loopHealth,
+    findings: [...open.items, ...acknowledged.items],
+    canManage: can(membership.role, "machines:manage"),
+    canRequestRetune: can(membership.role, "retune:request"),
+  };
 }
 
-const IntentSchema = z.object({ intent: z.enum(["enrolment-code", "revoke-device", "decommission"]) });
+const IntentSchema = z.object({ intent: z.enum(["enrolment-code", "revoke-device", "decommission", "retune"]) });
 
-type ActionResult = { ok: boolean; message: string; code?: { code: string; expiresAt: string } };
+type ActionResult = { ok: boolean; message: string; code?: { code: string; expiresAt: string }; retune?: boolean; errors?: Record<string, string> };
 
 export async function action({ request, params }: Route.ActionArgs) {
-  const membership = requireCapability(await requireCapableMember(request, params.slug, "fleet:read"), "machines:manage");
-  const parsed = IntentSchema.safeParse(Object.fromEntries(await request.formData()));
+  const member = await requireCapableMember(request, params.slug, "fleet:read");
+  const form = await request.formData();
+  const parsed = IntentSchema.safeParse(Object.fromEntries(form));
   if (!parsed.success) return data<ActionResult>({ ok: false, message: "Unknown action." }, { status: 400 });
   const db = getDb();
+  if (parsed.data.intent === "retune") {
+    requireCapability(member, "retune:request");
+    const input = RetuneCreateSchema.safeParse({ machineId: params.id, loopId: form.get("loopId"), observation: form.get("observation") ?? "" });
+    if (!input.success) {
+      const errors = Object.fromEntries(input.error.issues.map((i) => [String(i.path[0]), i.message]));
+      return data<ActionResult>({ ok: false, retune: true, message: "The retune request was not sent.", errors }, { status: 400 });
+    }
+    try {
+      const created = await createRetuneRequest(db, await getSiteScope(db, member), member.user.id, input.data);
+      return data<ActionResult>({
+        ok: true,
+        retune: true,
+        message: created.notified
+          ? "Retune request sent to the OEM's engineers. Follow its state under Retune requests."
+          : "Retune request filed; the e-mail to the engineers did not go out, but they see it in their queue. Follow its state under Retune requests.",
+      });
+    } catch (error) {
+      const failure = actionFailure<ActionResult>(error);
+      return data<ActionResult>({ ...failure.data, retune: true }, failure.init ?? undefined);
+    }
+  }
+  const membership = requireCapability(member, "machines:manage");
   const scope = await getSiteScope(db, membership);
   const input = { machineId: params.id, actor: membership.user.id };
   try {
@@ -59,7 +103,8 @@ export async function action({ request, params }: Route.ActionArgs) {
 const ENROLMENT_WORDS = { enrolled: "Enrolled", revoked: "Key revoked", not_enrolled: "Not enrolled" } as const;
 
 export default function MachinePage({ loaderData, actionData }: Route.ComponentProps) {
-  const { machine, slug, canManage } = loaderData;
+  const { machine, slug, canManage, canRequestRetune, selectedLoopId, loopHealth, findings } = loaderData;
+  const selectedLoop = machine.loops.find((l) => l.id === selectedLoopId) ?? null;
   const busy = useNavigation().state === "submitting";
   const active = machine.status === "active";
   const activeDevice = machine.devices.find((d) => d.status === "active");
@@ -72,7 +117,7 @@ export default function MachinePage({ loaderData, actionData }: Route.ComponentP
         action={<HealthBadge band={machine.health.band} score={machine.health.score} />}
       />
       <div className="space-y-6 px-5 py-5 sm:px-8">
-        {actionData ? (
+        {actionData && !actionData.retune ? (
           <Notice tone={actionData.ok ? "success" : "error"}>
             {actionData.message}
             {actionData.code ? (
@@ -100,6 +145,71 @@ export default function MachinePage({ loaderData, actionData }: Route.ComponentP
             </div>
           ))}
         </dl>
+
+        {selectedLoop ? (
+          <nav aria-label="Choose a loop" className="flex flex-wrap gap-1.5">
+            {machine.loops.map((l) => (
+              <Link
+                key={l.id}
+                to={`?loop=${l.id}`}
+                preventScrollReset
+                aria-current={l.id === selectedLoop.id ? "page" : undefined}
+                className={`inline-flex items-center gap-1.5 rounded-md border px-2 py-1 text-xs ${l.id === selectedLoop.id ? "border-accent bg-accent-wash font-medium text-accent-strong" : "border-rule bg-white text-ink-soft hover:bg-paper-deep"}`}
+              >
+                {l.name}
+                <HealthBadge band={l.health.band} score={l.health.score} />
+              </Link>
+            ))}
+          </nav>
+        ) : null}
+        {selectedLoop && loopHealth ? <LoopHealthPanel health={loopHealth} loopName={selectedLoop.name} reportHref={`/o/${slug}/reports/loop/${selectedLoop.id}`} /> : null}
+
+        <section aria-labelledby="machine-findings-heading" className="rounded-xl border border-rule bg-white p-4">
+          <div className="flex flex-wrap items-baseline justify-between gap-2">
+            <h2 id="machine-findings-heading" className="font-semibold">Open findings on this machine</h2>
+            <Link to={`/o/${slug}/findings?machineId=${machine.id}`} className="text-sm text-accent hover:underline">All findings of {machine.serial}</Link>
+          </div>
+          {findings.length === 0 ? (
+            <p className="mt-2 text-sm text-ink-soft">No open findings: none of this machine's loops has tripped a limit.</p>
+          ) : (
+            <ul className="mt-2 divide-y divide-rule text-sm">
+              {findings.map((f) => (
+                <li key={f.id} className={`flex flex-wrap items-center gap-x-3 gap-y-0.5 py-1.5 ${f.loopId === selectedLoopId ? "" : "opacity-90"}`}>
+                  <SeverityBadge severity={f.severity} />
+                  <Link to={`/o/${slug}/findings/${f.id}`} className="font-medium text-accent hover:underline">{KIND_LABELS[f.kind]}</Link>
+                  <span className="font-mono text-xs text-ink-faint">{f.loopKey}</span>
+                  <span className="min-w-0 flex-1 basis-60 text-ink-soft">{f.summary}</span>
+                  <span className="text-xs text-ink-faint">{STATE_LABELS[f.state]} · {formatAgo(f.updatedAt)}</span>
+                </li>
+              ))}
+            </ul>
+          )}
+        </section>
+
+        {canRequestRetune && active ? (
+          <section aria-labelledby="retune-heading" className="rounded-xl border border-rule bg-white p-4">
+            <h2 id="retune-heading" className="font-semibold">Ask the OEM for a retune</h2>
+            <p className="mt-1 max-w-xl text-sm text-ink-soft">Tell the machine builder's engineers what you observe. They see it in their queue, and you see their answer under <Link to={`/o/${slug}/retune-requests`} className="link-in-text">Retune requests</Link>.</p>
+            {actionData?.retune ? <div className="mt-2"><Notice tone={actionData.ok ? "success" : "error"}>{actionData.message}</Notice></div> : null}
+            <Form method="post" className="mt-3 max-w-md space-y-3">
+              <input type="hidden" name="intent" value="retune" />
+              <div>
+                <label htmlFor="retune-loop" className="block text-sm font-medium">Loop</label>
+                <select id="retune-loop" name="loopId" defaultValue={selectedLoop?.id ?? ""} aria-describedby="retune-loop-help" className="mt-1 block w-full rounded-md border border-rule-strong bg-white px-3 py-2 text-sm">
+                  <option value="">Not sure / the whole machine</option>
+                  {machine.loops.map((l) => <option key={l.id} value={l.id}>{l.name} ({l.key})</option>)}
+                </select>
+                <p id="retune-loop-help" className="mt-1 text-xs text-ink-faint">Optional: the loop you think is the trouble.</p>
+              </div>
+              <div>
+                <label htmlFor="retune-observation" className="block text-sm font-medium">What you observe</label>
+                <textarea id="retune-observation" name="observation" rows={3} required minLength={3} maxLength={4000} aria-invalid={actionData?.errors?.observation ? true : undefined} aria-describedby="retune-observation-help" className="mt-1 block w-full rounded-md border border-rule-strong bg-white px-3 py-2 text-sm aria-invalid:border-act" />
+                <p id="retune-observation-help" className={`mt-1 text-xs ${actionData?.errors?.observation ? "text-act" : "text-ink-faint"}`}>{actionData?.errors?.observation ?? "E.g. zone 2 takes 40 minutes to reach temperature after a colour change."}</p>
+              </div>
+              <Button disabled={busy}>Send retune request</Button>
+            </Form>
+          </section>
+        ) : null}
 
         <section aria-labelledby="loops-heading">
           <h2 id="loops-heading" className="font-semibold">Loops</h2>
@@ -138,7 +248,7 @@ export default function MachinePage({ loaderData, actionData }: Route.ComponentP
           </div>
         </section>
 
-        {machine.loops.length ? <LoopTrends slug={slug} loops={machine.loops.map((l) => ({ id: l.id, key: l.key, name: l.name, unit: l.unit, thresholds: l.thresholds }))} /> : null}
+        {machine.loops.length ? <LoopTrends slug={slug} initialLoopId={selectedLoopId ?? undefined} loops={machine.loops.map((l) => ({ id: l.id, key: l.key, name: l.name, unit: l.unit, thresholds: l.thresholds }))} /> : null}
 
         <section aria-labelledby="enrolment-heading" className="rounded-xl border border-rule bg-white p-4">
           <h2 id="enrolment-heading" className="font-semibold">Enrolment</h2>

@@ -82,12 +82,19 @@ export const organisationSigningKey = pgTable(
     alg: text("alg").notNull().default("EdDSA"),
     publicJwk: jsonb("public_jwk").$type<Record<string, string>>().notNull(),
     privateJwk: jsonb("private_jwk").$type<Record<string, string>>().notNull(),
-    /** `active` signs; `retired` stays in the JWKS for verification only. */
+    /**
+     * `active` signs (one per organisation); `retired` stays in the JWKS for verification only
+     * during the overlap after a rotation; `withdrawn` is no longer published.
+     */
     status: text("status").notNull().default("active"),
     createdAt: timestamp("created_at", { withTimezone: true }).notNull().defaultNow(),
+    /** When a rotation replaced it; the overlap is counted from here. */
+    retiredAt: timestamp("retired_at", { withTimezone: true }),
+    withdrawnAt: timestamp("withdrawn_at", { withTimezone: true }),
   },
   (t) => [
     primaryKey({ name: "organisation_signing_key_pk", columns: [t.organisationId, t.id] }),
     index("organisation_signing_key_status_idx").on(t.organisationId, t.status),
+    uniqueIndex("organisation_signing_key_one_active_uq").on(t.organisationId).where(sql`status = 'active'`),
   ],
 );

@@ -123,7 +123,11 @@ export const loop = pgTable(
     /** The gains assigned to this loop and their version (monotonic per loop). */
     gains: jsonb("gains").$type<StoredGains>().notNull(),
     configVersion: integer("config_version").notNull().default(1),
+    /** The gain set offered (null: the template's defaults); releases set it. */
+    gainSetId: uuid("gain_set_id"),
     appliedVersion: integer("applied_version"),
+    /** The gain set the loop runs, from its acknowledgements (null: the template's defaults). */
+    appliedGainSetId: uuid("applied_gain_set_id"),
     ackStatus: text("ack_status"),
     ackReason: text("ack_reason"),
     ackedAt: timestamp("acked_at", { withTimezone: true }),

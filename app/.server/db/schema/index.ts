@@ -7,5 +7,6 @@ export * from "./device";
 export * from "./digests";
 export * from "./api-tokens";
 export * from "./gain-sets";
+export * from "./releases";
 export * from "./billing";
 export * from "./health";

@@ -1,15 +1,22 @@
 // POST /api/v1/o/:slug/findings/:id/acknowledge {comment?} → 200 the finding
 // POST /api/v1/o/:slug/findings/:id/resolve {comment}      → 200 the finding
-// Capability findings:triage (viewers: 403); site managers only their sites (others: 404).
+// GET  /api/v1/o/:slug/findings/:id/series  → the metric per hour, threshold, tripping window (fleet:read)
+// Acknowledge and resolve need findings:triage (viewers: 403); site managers only their sites (others: 404).
 import { getDb } from "~/.server/db/client";
 import { apiError, invalidBody, methodNotAllowed, readJsonBody } from "~/.server/http/json";
 import { requireApiCaller } from "~/.server/fleet/api-auth";
 import { handleApi } from "~/.server/http/errors";
-import { acknowledgeFinding, resolveFinding } from "~/.server/health/findings";
+import { acknowledgeFinding, getFindingSeries, resolveFinding } from "~/.server/health/findings";
 import { AcknowledgeSchema, ResolveSchema } from "~/lib/health/api-types";
 import type { Route } from "./+types/finding-command";
 
-export const loader = () => methodNotAllowed("POST");
+export function loader({ request, params }: Route.LoaderArgs) {
+  return handleApi(async () => {
+    if (params.command !== "series") return methodNotAllowed("POST");
+    const caller = await requireApiCaller(request, params.slug, "fleet:read");
+    return getFindingSeries(getDb(), caller.scope, params.id);
+  });
+}
 
 export function action({ request, params }: Route.ActionArgs) {
   return handleApi(async () => {
