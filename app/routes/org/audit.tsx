@@ -153,7 +153,12 @@ export default function AuditPage({ loaderData }: Route.ComponentProps) {
                     <tr key={item.id}>
                       <td className="whitespace-nowrap px-3 py-1.5 tabular text-ink-soft"><time dateTime={item.at}>{item.at.replace("T", " ").slice(0, 19)}</time></td>
                       <td className="px-3 py-1.5 text-ink">{item.actor.name}{item.actor.email ? <div className="text-xs text-ink-faint">{item.actor.email}</div> : null}</td>
-                      <td className="px-3 py-1.5 font-mono text-xs break-all text-ink">{item.action}</td>
+                      <td className="px-3 py-1.5 font-mono text-xs text-ink">
+                        {/* Break after the dot only: "gain_set." / "approved". */}
+                        {item.action.split(".").map((part, i) => (
+                          <span key={i}>{i > 0 ? <>.<wbr /></> : null}{part}</span>
+                        ))}
+                      </td>
                       <td className="px-3 py-1.5 text-ink-soft">
                         {item.targetType === "gain_set" && item.targetId ? <Link to={`/o/${slug}/gain-sets/${item.targetId}`} className="link-in-text">{targetText(item)}</Link> : targetText(item)}
                       </td>
