@@ -89,7 +89,8 @@ export async function createRelease(db: Db, { organisationId, actor, input, now 
       action: "release.created",
       targetType: "release",
       targetId: row.id,
-      detail: { gainSetId: set.id, version: set.version, machines: machineIds.length, loops: loops.length, pilotMachines: pilotIds.length, guard: input.guard, target: input.target },
+      detail: { gainSetId: set.id, version: set.version, machines: machineIds.length, loops: loops.length, pilotMachines: pilotIds.length },
+      after: { state: "pending", gainSetId: set.id, target: input.target, pilot: input.pilot, guard: input.guard },
     });
     // The pilot is offered at once; the job takes it from there.
     await offerWave(tx, { organisationId, releaseId: row.id, wave: 0, actor, now });
@@ -236,7 +237,7 @@ export async function holdRelease(db: Db, { organisationId, releaseId, actor, re
       .update(release)
       .set({ state: "held", heldReason: reason, updatedAt: now, ...(figures ? { figures } : {}) })
       .where(and(eq(release.organisationId, organisationId), eq(release.id, releaseId)));
-    await recordAudit(tx, { organisationId, actor, action: "release.held", targetType: "release", targetId: releaseId, detail: { from: row.state, to: "held", reason, automatic: actor === "system" } });
+    await recordAudit(tx, { organisationId, actor, action: "release.held", targetType: "release", targetId: releaseId, detail: { reason, automatic: actor === "system" }, before: { state: row.state, heldReason: row.heldReason }, after: { state: "held", heldReason: reason } });
     return row;
   });
   try {
@@ -251,7 +252,7 @@ export async function resumeRelease(db: Db, { organisationId, releaseId, actor, 
   await db.transaction(async (tx) => {
     const row = await lockRelease(tx, { organisationId, releaseId });
     if (row.state !== "held") throw new DomainError("invalid_state", `Only a held release can be resumed; this one is ${row.state.replace("_", " ")}.`, { status: 409 });
-    await recordAudit(tx, { organisationId, actor, action: "release.resumed", targetType: "release", targetId: releaseId, detail: { from: "held", heldReason: row.heldReason } });
+    await recordAudit(tx, { organisationId, actor, action: "release.resumed", targetType: "release", targetId: releaseId, before: { state: "held", heldReason: row.heldReason }, after: { state: "widening", heldReason: null } });
     await tx.update(release).set({ heldReason: null, updatedAt: now }).where(and(eq(release.organisationId, organisationId), eq(release.id, releaseId)));
     await widen(tx, { organisationId, releaseId, actor, now });
   });
@@ -289,7 +290,7 @@ export async function rollbackRelease(db: Db, { organisationId, releaseId, actor
     await tx.update(releaseWave).set({ state: "stopped" }).where(and(eq(releaseWave.organisationId, organisationId), eq(releaseWave.releaseId, releaseId), eq(releaseWave.state, "pending")));
     await tx.update(release).set({ state: "rolled_back", updatedAt: now }).where(and(eq(release.organisationId, organisationId), eq(release.id, releaseId)));
     await tx.update(gainSet).set({ state: "retired" }).where(and(eq(gainSet.organisationId, organisationId), eq(gainSet.id, row.gainSetId)));
-    await recordAudit(tx, { organisationId, actor, action: "release.rolled_back", targetType: "release", targetId: releaseId, detail: { from: row.state, to: "rolled_back", loops: reverted.rows.length } });
+    await recordAudit(tx, { organisationId, actor, action: "release.rolled_back", targetType: "release", targetId: releaseId, detail: { loops: reverted.rows.length }, before: { state: row.state }, after: { state: "rolled_back" } });
   });
 }
 
@@ -302,7 +303,7 @@ async function completeIfDone(db: Db, { organisationId, releaseId, now }: Ctx & 
   if (Number(open) > 0 || Number(pendingWaves) > 0) return false;
   await db.update(releaseWave).set({ state: "complete", completedAt: now }).where(and(eq(releaseWave.organisationId, organisationId), eq(releaseWave.releaseId, releaseId), eq(releaseWave.state, "offered")));
   await db.update(release).set({ state: "complete", completedAt: now, updatedAt: now }).where(and(eq(release.organisationId, organisationId), eq(release.id, releaseId)));
-  await recordAudit(db, { organisationId, actor: "system", action: "release.completed", targetType: "release", targetId: releaseId, detail: { to: "complete" } });
+  await recordAudit(db, { organisationId, actor: "system", action: "release.completed", targetType: "release", targetId: releaseId, before: { state: "widening" }, after: { state: "complete" } });
   return true;
 }
 
