@@ -161,6 +161,8 @@ test("gains from the bench are saved as a draft gain set of a loop template", as
   await loop.selectOption(zone!);
   await page.getByLabel("Note").fill("Tried on the bench");
   await page.getByRole("button", { name: "Save as draft gain set" }).click();
-  await expect(page.getByText(/Saved draft v\d+ for zone_1/)).toBeVisible();
-  await page.getByRole("region", { name: "Closed-loop response", exact: true }).screenshot({ path: "data/screenshots/bench-save-draft-desktop.png" });
+  // The saved draft opens on its own page, where it can be proposed.
+  await expect(page).toHaveURL(/\/o\/corvid\/gain-sets\/[0-9a-f-]{36}$/);
+  await expect(page.getByText("Tried on the bench")).toBeVisible();
+  await page.screenshot({ path: "data/screenshots/bench-save-draft-desktop.png" });
 });

@@ -169,9 +169,10 @@ export default function GainSetPage({ loaderData }: Route.ComponentProps) {
 
           <section aria-labelledby="gains-title" className="rounded-md border border-rule bg-white px-4 py-3">
             <h2 id="gains-title" className="text-sm font-semibold text-ink">Gains</h2>
-            <dl className="mt-2 grid gap-x-8 text-sm sm:grid-cols-2">
+            <div className="mt-2 grid gap-x-8 text-sm sm:grid-cols-2">
               <div>
                 <p className="text-xs text-ink-faint">As entered ({g.form} form)</p>
+                <dl>
                 {entered.form === "parallel" ? (
                   <>
                     <Row label="kp">{formatGain(entered.kp)}</Row>
@@ -185,14 +186,17 @@ export default function GainSetPage({ loaderData }: Route.ComponentProps) {
                     <Row label="Td" unit="s">{formatGain(entered.td)}</Row>
                   </>
                 )}
+                </dl>
               </div>
               <div>
                 <p className="text-xs text-ink-faint">What devices receive (parallel)</p>
-                <Row label="kp">{formatGain(g.gains.kp)}</Row>
-                <Row label="ki" unit="1/s">{formatGain(g.gains.ki)}</Row>
-                <Row label="kd" unit="s">{formatGain(g.gains.kd)}</Row>
+                <dl>
+                  <Row label="kp">{formatGain(g.gains.kp)}</Row>
+                  <Row label="ki" unit="1/s">{formatGain(g.gains.ki)}</Row>
+                  <Row label="kd" unit="s">{formatGain(g.gains.kd)}</Row>
+                </dl>
               </div>
-            </dl>
+            </div>
             <p className="mt-2 text-xs text-ink-faint">
               Safety envelope of {t.key}: kp {formatGain(t.envelope.kp[0])}…{formatGain(t.envelope.kp[1])}, ki {formatGain(t.envelope.ki[0])}…{formatGain(t.envelope.ki[1])} 1/s, kd {formatGain(t.envelope.kd[0])}…{formatGain(t.envelope.kd[1])} s.
             </p>

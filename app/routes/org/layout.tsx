@@ -16,13 +16,16 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const organisationId = membership.organisation.id;
   const [organisations, standing] = await Promise.all([listMemberships(db, { userId: membership.user.id }), getBillingStanding(db, { organisationId })]);
   const canManageBilling = can(membership.role, "billing:manage");
-  const owner = standing.hold && !canManageBilling ? (await getOwners(db, { organisationId }))[0] : undefined;
+  // The OEM's own people see why new machines and releases are paused; a site manager works for
+  // the OEM's customer, whose machines are unaffected, so the OEM's billing is not theirs to see.
+  const showHold = standing.hold !== null && can(membership.role, "registry:read");
+  const owner = showHold && !canManageBilling ? (await getOwners(db, { organisationId }))[0] : undefined;
   return {
     organisation: membership.organisation,
     role: membership.role,
     user: { name: membership.user.name, email: membership.user.email },
     organisations: organisations.map(({ name, slug }) => ({ name, slug })),
-    billingHold: standing.hold ? { hold: standing.hold, canManage: canManageBilling, ownerName: owner?.name ?? null } : null,
+    billingHold: showHold && standing.hold ? { hold: standing.hold, canManage: canManageBilling, ownerName: owner?.name ?? null } : null,
   };
 }
 
