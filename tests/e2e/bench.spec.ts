@@ -163,6 +163,6 @@ test("gains from the bench are saved as a draft gain set of a loop template", as
   await page.getByRole("button", { name: "Save as draft gain set" }).click();
   // The saved draft opens on its own page, where it can be proposed.
   await expect(page).toHaveURL(/\/o\/corvid\/gain-sets\/[0-9a-f-]{36}$/);
-  await expect(page.getByText("Tried on the bench")).toBeVisible();
+  await expect(page.getByText("Rationale: Tried on the bench")).toBeVisible();
   await page.screenshot({ path: "data/screenshots/bench-save-draft-desktop.png" });
 });
