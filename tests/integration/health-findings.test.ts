@@ -221,3 +221,28 @@ describe("arrival order", () => {
     expect(await judged(b.id)).toEqual(findingsA);
   }, 60_000);
 });
+
+describe("silence", () => {
+  it("opens when digests stop for three expected intervals and resolves as soon as one arrives", async () => {
+    const team = await createTeam(db(), ["owner", "engineer"]);
+    const organisationId = team.organisation.id;
+    const zone = DEMO_FLEETS.corvid.model.templates[0];
+    const model = await createMachineModel(db(), { organisationId, name: `Quiet ${uniqueSuffix()}`, templates: [{ ...zone, thresholds: { ...zone.thresholds, expectedDigestIntervalS: 60 } as never }] });
+    const buyer = await createCustomer(db(), { organisationId, name: `Buyer ${uniqueSuffix()}` });
+    const site = await createSite(db(), { organisationId, customerId: buyer.id, name: "Works" });
+    const machine = await createMachine(db(), { organisationId, modelId: model.id, siteId: site.id });
+    const client = await enrol(machine.enrolmentCode);
+    const start = new Date(Date.now() - 2 * HOUR);
+    await post(client, Array.from({ length: 10 }, (_, i) => sampleDigest(zone.key, i + 1, new Date(start.getTime() + i * 60_000))));
+    // Evaluated an hour after the last window: 60 intervals of silence, far past 3.
+    await evaluateMachineHealth(db(), { organisationId, machineId: machine.id });
+    const silent = (await findingsOf(organisationId, machine.id)).filter((f) => f.kind === "silent");
+    expect(silent).toHaveLength(1);
+    expect(silent[0]!.state).toBe("open");
+    // A digest arrives: the silence is over beyond doubt, no auto-resolve wait.
+    await post(client, [sampleDigest(zone.key, 11, new Date(Date.now() - 60_000))]);
+    await evaluateMachineHealth(db(), { organisationId, machineId: machine.id });
+    const after = (await findingsOf(organisationId, machine.id)).filter((f) => f.kind === "silent");
+    expect(after.map((f) => f.state)).toEqual(["resolved"]);
+  });
+});

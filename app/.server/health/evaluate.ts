@@ -152,17 +152,20 @@ async function applyJudgement(
   if (j.status === "unknown") return "none";
   if (j.status === "clear") {
     if (!existing) return "none";
-    const clearSince = existing.clear_since ? asDate(existing.clear_since) : null;
+    // Silence ends beyond doubt when a digest arrives: that finding resolves at once. The others
+    // wait until their figures have stayed clear for the template's auto-resolve time.
+    const waitS = existing.kind === "silent" ? 0 : input.autoResolveAfterS;
+    const clearSince = existing.clear_since ? asDate(existing.clear_since) : waitS === 0 ? now : null;
     if (!clearSince) {
       await tx.execute(sql`update finding set clear_since = ${at}::timestamptz where organisation_id = ${organisationId} and id = ${existing.id}::uuid`);
       return "cleared";
     }
-    if (now.getTime() - clearSince.getTime() < input.autoResolveAfterS * 1000) return "none";
+    if (now.getTime() - clearSince.getTime() < waitS * 1000) return "none";
     await tx.execute(sql`update finding set state = 'resolved', resolved_at = ${at}::timestamptz, updated_at = ${at}::timestamptz, alert_pending = 0
       where organisation_id = ${organisationId} and id = ${existing.id}::uuid`);
     await tx.execute(sql`insert into finding_event (organisation_id, finding_id, at, state, severity, actor_id, comment)
       values (${organisationId}, ${existing.id}::uuid, ${at}::timestamptz, 'resolved', ${existing.severity}, null,
-              ${`Clear since ${clearSince.toISOString()}: resolved automatically after ${Math.round(input.autoResolveAfterS / 3600)} h.`})`);
+              ${waitS === 0 ? "Digests arrived again: resolved automatically." : `Clear since ${clearSince.toISOString()}: resolved automatically after ${Math.round(waitS / 3600)} h.`})`);
     return "resolved";
   }
   if (!existing) {
