@@ -1,6 +1,6 @@
 // A thin-line trend over time (visx): axes with labels and units, a dashed threshold, a
 // tooltip with the exact value and time. Sized to its container, so it reads at 390 px.
-import { useEffect, useRef, useState } from "react";
+import { SizedBox } from "~/components/charts/sized-box";
 import { Axis, Grid, LineSeries, Tooltip, XYChart } from "@visx/xychart";
 import { ChartFigures, evenlySpacedIndices } from "~/components/charts/chart-figures";
 
@@ -50,7 +50,7 @@ export function TrendChart({
           No digests in this range.
         </p>
       ) : (
-        <Sized height={height}>
+        <SizedBox height={height}>
         {(width) => (
         <XYChart width={width} height={height} accessibilityLabel={`${title} (${unit}) over time`} margin={{ top: 10, right: 12, bottom: 28, left: 48 }} xScale={{ type: "time" }} yScale={{ type: "linear", domain: [0, max], nice: true }}>
           <Grid columns={false} numTicks={4} lineStyle={{ stroke: "var(--color-rule)", strokeWidth: 1 }} />
@@ -84,7 +84,7 @@ export function TrendChart({
           />
         </XYChart>
         )}
-        </Sized>
+        </SizedBox>
       )}
       {points.length > 0 ? (
         <ChartFigures
@@ -106,16 +106,3 @@ function describeTrend(points: TrendPoint[], unit: string, format: (v: number) =
   return `${points.length} points from ${range}, lowest ${format(Math.min(...values))}, highest ${format(Math.max(...values))} ${unit}${limit}.`;
 }
 
-/** Measures its own width (ResizeObserver) and renders the chart once it is known. */
-function Sized({ height, children }: { height: number; children: (width: number) => React.ReactNode }) {
-  const ref = useRef<HTMLDivElement>(null);
-  const [width, setWidth] = useState(0);
-  useEffect(() => {
-    const element = ref.current;
-    if (!element) return;
-    const observer = new ResizeObserver((entries) => setWidth(Math.floor(entries[0].contentRect.width)));
-    observer.observe(element);
-    return () => observer.disconnect();
-  }, []);
-  return <div ref={ref} style={{ height }}>{width > 0 ? children(width) : null}</div>;
-}

@@ -1,7 +1,8 @@
+import { type StateLook, StatePill } from "~/components/ui/state-pill";
 import type { GainSetState } from "~/lib/gain-sets/types";
 
 // Each state as icon + word (never colour alone).
-const STATES: Record<GainSetState, { icon: string; word: string; className: string }> = {
+const STATES: Record<GainSetState, StateLook> = {
   draft: { icon: "✎", word: "Draft", className: "border-rule-strong text-ink-soft" },
   proposed: { icon: "?", word: "Proposed", className: "border-watch/50 bg-watch/10 text-watch" },
   approved: { icon: "✓", word: "Approved", className: "border-steady/40 bg-steady/10 text-steady" },
@@ -11,13 +12,7 @@ const STATES: Record<GainSetState, { icon: string; word: string; className: stri
 };
 
 export function GainSetStateBadge({ state }: { state: GainSetState }) {
-  const s = STATES[state];
-  return (
-    <span className={`inline-flex items-center gap-1 rounded-full border px-2 py-0.5 text-xs font-medium ${s.className}`}>
-      <span aria-hidden="true">{s.icon}</span>
-      {s.word}
-    </span>
-  );
+  return <StatePill look={STATES[state]} />;
 }
 
 export const STATE_WORDS: Record<GainSetState, string> = Object.fromEntries(Object.entries(STATES).map(([k, v]) => [k, v.word])) as Record<GainSetState, string>;

@@ -4,7 +4,7 @@
 import { useContext } from "react";
 import { Axis, DataContext, Grid, LineSeries, Tooltip, XYChart } from "@visx/xychart";
 import { ChartFigures, evenlySpacedIndices } from "~/components/charts/chart-figures";
-import { SizedBox } from "~/components/health/sized-box";
+import { SizedBox } from "~/components/charts/sized-box";
 
 export type SeriesPoint = { t: number; v: number };
 

@@ -3,7 +3,7 @@
 // and the figures as a table under it. Sized to its container, so it reads at 390 px.
 import { Axis, BarSeries, BarStack, Grid, Tooltip, XYChart } from "@visx/xychart";
 import { ChartFigures } from "~/components/charts/chart-figures";
-import { SizedBox } from "~/components/health/sized-box";
+import { SizedBox } from "~/components/charts/sized-box";
 import type { HealthBand } from "~/lib/health";
 import type { Overview } from "~/lib/health/api-types";
 

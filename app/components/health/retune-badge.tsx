@@ -1,4 +1,5 @@
 import { RETUNE_STATE_LABELS } from "~/components/health/words";
+import { StatePill } from "~/components/ui/state-pill";
 import type { RetuneState } from "~/lib/health/api-types";
 
 // A retune request's state: colour + icon + word.
@@ -11,11 +12,5 @@ const STATE_TONE: Record<RetuneState, string> = {
 const STATE_ICON: Record<RetuneState, string> = { open: "○", in_progress: "◐", done: "●", declined: "✕" };
 
 export function RetuneStateBadge({ state }: { state: RetuneState }) {
-  return (
-    <span className={`inline-flex items-center gap-1 whitespace-nowrap rounded-full border px-2 py-0.5 text-xs font-medium ${STATE_TONE[state]}`}>
-      <span aria-hidden="true">{STATE_ICON[state]}</span>
-      {RETUNE_STATE_LABELS[state]}
-    </span>
-  );
+  return <StatePill look={{ icon: STATE_ICON[state], word: RETUNE_STATE_LABELS[state], className: STATE_TONE[state] }} />;
 }
-

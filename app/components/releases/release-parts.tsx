@@ -1,8 +1,9 @@
 // Pieces of the release pages: the state badge (icon + word), per-wave progress bars, and the
 // guard figures. Colours from the app's tokens only, always with words.
+import { type StateLook, StatePill } from "~/components/ui/state-pill";
 import type { ReleaseFigures, ReleaseState, TargetState } from "~/lib/release/types";
 
-const STATE_LOOK: Record<ReleaseState, { word: string; icon: string; className: string }> = {
+const STATE_LOOK: Record<ReleaseState, StateLook> = {
   pending: { word: "Pending", icon: "○", className: "border-rule-strong text-ink-soft" },
   piloting: { word: "Piloting", icon: "◔", className: "border-accent/40 text-accent" },
   held: { word: "Held", icon: "‖", className: "border-act/40 bg-act/5 text-act" },
@@ -12,13 +13,7 @@ const STATE_LOOK: Record<ReleaseState, { word: string; icon: string; className: 
 };
 
 export function ReleaseStateBadge({ state }: { state: ReleaseState }) {
-  const look = STATE_LOOK[state];
-  return (
-    <span className={`inline-flex items-center gap-1 rounded-full border px-2 py-0.5 text-xs font-medium ${look.className}`}>
-      <span aria-hidden="true">{look.icon}</span>
-      {look.word}
-    </span>
-  );
+  return <StatePill look={STATE_LOOK[state]} />;
 }
 
 const TARGET_WORDS: Record<TargetState, string> = { pending: "waiting", offered: "offered", applied: "applied", rejected: "rejected" };
