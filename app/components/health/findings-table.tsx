@@ -16,6 +16,7 @@ import { SeverityBadge } from "~/components/health/overview-panels";
 import { KIND_LABELS, STATE_LABELS } from "~/components/health/words";
 import { Button } from "~/components/ui/button";
 import type { FindingItem, FindingState } from "~/lib/health/api-types";
+import { SortHeaderCell } from "~/components/ui/sort-header-cell";
 
 const features = tableFeatures({ rowSortingFeature, rowSelectionFeature });
 const helper = createColumnHelper<typeof features, FindingItem>();
@@ -135,22 +136,11 @@ export function FindingsTable({ slug, rows, sort, dir, canTriage }: { slug: stri
           <thead className="sticky top-0 z-10 bg-paper text-left text-xs uppercase tracking-wide text-ink-faint shadow-[0_1px_0_var(--color-rule)]">
             {table.getHeaderGroups().map((group) => (
               <tr key={group.id}>
-                {group.headers.map((header) => {
-                  const canSort = header.column.getCanSort();
-                  const state = header.column.getIsSorted();
-                  return (
-                    <th key={header.id} scope="col" aria-sort={state === "asc" ? "ascending" : state === "desc" ? "descending" : undefined} className="px-3 py-2 font-medium">
-                      {canSort ? (
-                        <button type="button" onClick={header.column.getToggleSortingHandler()} className="inline-flex items-center gap-1 uppercase tracking-wide hover:text-ink">
-                          <table.FlexRender header={header} />
-                          <span aria-hidden="true" className="w-2 text-ink-soft">{state === "asc" ? "↑" : state === "desc" ? "↓" : ""}</span>
-                        </button>
-                      ) : (
-                        <table.FlexRender header={header} />
-                      )}
-                    </th>
-                  );
-                })}
+                {group.headers.map((header) => (
+                  <SortHeaderCell key={header.id} canSort={header.column.getCanSort()} sorted={header.column.getIsSorted()} onToggle={header.column.getToggleSortingHandler()}>
+                    <table.FlexRender header={header} />
+                  </SortHeaderCell>
+                ))}
               </tr>
             ))}
           </thead>
